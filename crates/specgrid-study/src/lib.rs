@@ -1,0 +1,3 @@
+//! The specgrid study file, its validation and the planner.
+pub mod plan;
+pub use plan::*;
