@@ -14,6 +14,8 @@
 //! table.write_csv(&mut csv).unwrap();
 //! ```
 
+#![warn(missing_docs)]
+
 mod config;
 mod generate;
 mod names;
