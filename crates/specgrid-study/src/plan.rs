@@ -203,12 +203,32 @@ pub enum RowPolicy {
     PerModel,
 }
 
+/// What kind of decision a [`Dimension`] is.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum DimensionKind {
+    /// The outcome form.
+    Outcome,
+    /// The focus form.
+    Focus,
+    /// An optional control block: options `out`, `in`.
+    OptionalBlock,
+    /// A block of alternative term sets (with `none` first when the study allows it).
+    Alternatives,
+    /// Nested mode: optional blocks added cumulatively; options `none`, then one per step.
+    NestedControls,
+    /// The row set.
+    Sample,
+}
+
 /// One decision dimension of the grid and its options.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Dimension {
     /// Dimension name; also the results column name (e.g. `outcome`, `focus`, `sample`, or a
     /// control block's name).
     pub name: String,
+    /// What kind of decision this is.
+    pub kind: DimensionKind,
     /// Option names, in the order the study lists them. The first is the dimension's reference
     /// option for influence comparisons.
     pub options: Vec<String>,
@@ -265,6 +285,142 @@ pub struct Plan {
     pub size_before_exclusions: u128,
     /// Grid size after exclusions (before random sampling).
     pub size_after_exclusions: u128,
+    /// Number of models drawn at random, when the study asked for a random sample of the grid.
+    pub random_sample: Option<u64>,
+    /// Index into `models` of the baseline model (the first option on every dimension), if it
+    /// was planned (it may be skipped or not drawn).
+    pub baseline: Option<usize>,
+    /// Number of distinct least-squares factorisations the models need: models of one sample
+    /// with the same term set share one (under per-model rows, also the same outcome
+    /// validity: `level`/`asinh` vs `log` vs `log1p`).
+    pub factorisations: usize,
     /// The models to estimate, in a deterministic order.
     pub models: Vec<PlannedModel>,
+}
+
+impl Transform {
+    /// Short text used in labels: `log`, `pow3`, `winsor(0.01,0.99)`, …
+    fn tag(&self) -> String {
+        match self {
+            Transform::Level => "level".into(),
+            Transform::Log => "log".into(),
+            Transform::Log1p => "log1p".into(),
+            Transform::Asinh => "asinh".into(),
+            Transform::Power(p) => format!("pow{p}"),
+            Transform::Standardize => "z".into(),
+            Transform::Winsorize { lower, upper } => format!("winsor({lower:?},{upper:?})"),
+        }
+    }
+}
+
+impl Term {
+    /// Source columns the term reads.
+    pub fn columns(&self) -> Vec<&str> {
+        match self {
+            Term::Numeric { column, .. } | Term::Categorical { column, .. } => {
+                vec![column.as_str()]
+            }
+            Term::Product(a, b) => {
+                let mut cols = a.columns();
+                for c in b.columns() {
+                    if !cols.contains(&c) {
+                        cols.push(c);
+                    }
+                }
+                cols
+            }
+        }
+    }
+
+    /// A readable label: `visits`, `log(area_ha)`, `visits^2`, `z(visits)`,
+    /// `district[ref kestrel]`, `visits × irrigated`.
+    pub fn label(&self) -> String {
+        match self {
+            Term::Numeric { column, transform } => match transform {
+                Transform::Level => column.clone(),
+                Transform::Power(p) => format!("{column}^{p}"),
+                other => format!("{}({column})", other.tag()),
+            },
+            Term::Categorical { column, reference } => match reference {
+                Some(r) => format!("{column}[ref {r}]"),
+                None => format!("{column}[ref first]"),
+            },
+            Term::Product(a, b) => format!("{} × {}", a.label(), b.label()),
+        }
+    }
+
+    /// Canonical text: equal for terms that make the same design columns (product sides are
+    /// put in a fixed order). Used for deduplication and for stable model ids.
+    pub fn canonical(&self) -> String {
+        match self {
+            Term::Numeric { column, transform } => format!("num({column:?},{})", transform.tag()),
+            Term::Categorical { column, reference } => match reference {
+                Some(r) => format!("cat({column:?},ref={r:?})"),
+                None => format!("cat({column:?},ref=first)"),
+            },
+            Term::Product(a, b) => {
+                let (mut x, mut y) = (a.canonical(), b.canonical());
+                if y < x {
+                    std::mem::swap(&mut x, &mut y);
+                }
+                format!("prod({x},{y})")
+            }
+        }
+    }
+}
+
+impl Condition {
+    /// Source column the condition reads.
+    pub fn column(&self) -> &str {
+        match self {
+            Condition::Compare { column, .. }
+            | Condition::InSet { column, .. }
+            | Condition::NotInSet { column, .. }
+            | Condition::DropAboveQuantile { column, .. }
+            | Condition::DropBelowQuantile { column, .. } => column,
+        }
+    }
+}
+
+impl Plan {
+    /// Source columns one model reads for its outcome and terms (not sample conditions or
+    /// clustering), without duplicates, in first-use order.
+    pub fn model_columns(&self, model: &PlannedModel) -> Vec<&str> {
+        let mut cols: Vec<&str> = vec![self.outcomes[model.outcome].column.as_str()];
+        for &t in &model.terms {
+            for c in self.terms[t].columns() {
+                if !cols.contains(&c) {
+                    cols.push(c);
+                }
+            }
+        }
+        cols
+    }
+
+    /// Source columns used for clustering by any error choice.
+    pub fn cluster_columns(&self) -> Vec<&str> {
+        let mut cols: Vec<&str> = Vec::new();
+        for e in &self.errors {
+            let named: Vec<&str> = match e {
+                ErrorChoice::Cluster { column } => vec![column],
+                ErrorChoice::TwoWayCluster { first, second } => vec![first, second],
+                _ => vec![],
+            };
+            for c in named {
+                if !cols.contains(&c) {
+                    cols.push(c);
+                }
+            }
+        }
+        cols
+    }
+
+    /// The option name a model took on each dimension, as (dimension, option) pairs.
+    pub fn choice_names<'a>(&'a self, model: &PlannedModel) -> Vec<(&'a str, &'a str)> {
+        self.dimensions
+            .iter()
+            .zip(&model.choices)
+            .map(|(d, &c)| (d.name.as_str(), d.options[c].as_str()))
+            .collect()
+    }
 }

@@ -1,0 +1,266 @@
+//! Expanding a study into its planned models.
+
+use std::collections::{HashMap, HashSet};
+
+use crate::grid::{
+    self, count_skipped, decode, draw, full_size, DrawError, Layout, SkipBox, WALK_LIMIT,
+};
+use crate::ids::{canonical_text, model_id};
+use crate::plan::{Dimension, OutcomeForm, Plan, PlannedModel, RowPolicy, Term, Transform};
+use crate::problem::StudyProblem;
+use crate::study::Study;
+
+/// Grid sizes, computed without enumerating the grid.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GridCount {
+    /// Decision dimensions with their options.
+    pub dimensions: Vec<Dimension>,
+    /// Size of the full expansion (product of option counts, saturating at `u128::MAX`).
+    pub before_exclusions: u128,
+    /// Size after skip rules.
+    pub after_exclusions: u128,
+}
+
+/// Count the grid before and after skip rules (product rule and inclusion–exclusion; a grid
+/// is walked point by point only when it is small).
+pub fn count_grid(study: &Study) -> Result<GridCount, Vec<StudyProblem>> {
+    let layout = Layout::new(study);
+    let radices = layout.radices();
+    let boxes = skip_boxes(study, &layout);
+    let before = full_size(&radices);
+    let skipped = match count_skipped(&boxes, &radices) {
+        Some(n) => n,
+        None if before <= WALK_LIMIT => {
+            before - grid::enumerate_kept(&radices, &boxes).len() as u128
+        }
+        None => {
+            return Err(vec![study.source.problem(
+                study.spots.grid,
+                format!("too many overlapping skip rules to count a grid of {before} models"),
+                Some("merge skip rules (a rule may list several options per decision)".into()),
+            )])
+        }
+    };
+    Ok(GridCount {
+        dimensions: layout.dimensions,
+        before_exclusions: before,
+        after_exclusions: before.saturating_sub(skipped),
+    })
+}
+
+fn skip_boxes(study: &Study, layout: &Layout) -> Vec<SkipBox> {
+    study
+        .grid
+        .skip
+        .iter()
+        .map(|rule| SkipBox::new(rule, &layout.dimensions))
+        .collect()
+}
+
+/// Expand a study into its models: count, refuse past the limit, apply skip rules, draw the
+/// random sample if asked, and describe every model with its terms and stable id.
+pub fn plan(study: &Study) -> Result<Plan, Vec<StudyProblem>> {
+    let count = count_grid(study)?;
+    let layout = Layout::new(study);
+    let radices = layout.radices();
+    let boxes = skip_boxes(study, &layout);
+    let kept = count.after_exclusions;
+    if kept == 0 {
+        return Err(vec![study.source.problem(
+            study.spots.grid,
+            format!(
+                "the skip rules leave none of the {} models",
+                count.before_exclusions
+            ),
+            Some("loosen the skip rules in [grid]".into()),
+        )]);
+    }
+    let wanted = match study.grid.sample {
+        Some(n) if (n as u128) < kept => n as u128,
+        _ => kept,
+    };
+    if wanted > study.grid.limit {
+        let (at, hint) = match study.grid.sample {
+            Some(_) => (study.spots.sample, "lower `sample` or raise `limit` in [grid]".to_string()),
+            None => (
+                study.spots.limit,
+                "raise `limit` in [grid], add skip rules, or set `sample = N` in [grid] to draw N models at random".to_string(),
+            ),
+        };
+        return Err(vec![study.source.problem(
+            at,
+            format!(
+                "the grid has {} models ({} before skip rules), more than the limit of {}",
+                count_text(kept),
+                count_text(count.before_exclusions),
+                study.grid.limit
+            ),
+            Some(hint),
+        )]);
+    }
+    let indices = if wanted == kept {
+        grid::enumerate_kept(&radices, &boxes)
+    } else {
+        draw(&radices, &boxes, kept, wanted as u64, study.seed).map_err(|DrawError::TooSparse| {
+            vec![study.source.problem(
+                study.spots.sample,
+                format!("the skip rules keep only {kept} of {} models, too few to draw from at random", count_text(count.before_exclusions)),
+                Some("remove `sample` and list the decisions more narrowly, or loosen the skip rules".into()),
+            )]
+        })?
+    };
+    build(study, &layout, &count, indices)
+}
+
+/// Counts past a trillion read better in scientific form, with the exact value too.
+fn count_text(n: u128) -> String {
+    if n == u128::MAX {
+        "more than 3.4e38".into()
+    } else if n >= 1_000_000_000_000 {
+        format!("{n} (≈{:.3e})", n as f64)
+    } else {
+        n.to_string()
+    }
+}
+
+fn build(
+    study: &Study,
+    layout: &Layout,
+    count: &GridCount,
+    indices: Vec<u128>,
+) -> Result<Plan, Vec<StudyProblem>> {
+    let radices = layout.radices();
+    let mut terms: Vec<Term> = Vec::new();
+    let mut term_index: HashMap<String, usize> = HashMap::new();
+    let mut outcomes: Vec<OutcomeForm> = Vec::new();
+    let mut models = Vec::with_capacity(indices.len());
+    let mut seen_ids: HashMap<String, usize> = HashMap::new();
+    let mut duplicates = Vec::new();
+    for index in indices {
+        let choices = decode(index, &radices);
+        let content = layout.content(study, &choices);
+        let mut number = |t: &Term| -> usize {
+            let key = t.canonical();
+            *term_index.entry(key).or_insert_with(|| {
+                terms.push(t.clone());
+                terms.len() - 1
+            })
+        };
+        let model_terms: Vec<usize> = content.terms.iter().map(|t| number(t)).collect();
+        let tracked: Vec<usize> = content.tracked.iter().map(|t| number(t)).collect();
+        let outcome = match outcomes.iter().position(|o| o == content.outcome) {
+            Some(i) => i,
+            None => {
+                outcomes.push(content.outcome.clone());
+                outcomes.len() - 1
+            }
+        };
+        let sample = &study.samples[content.sample];
+        let id = model_id(&canonical_text(&content, sample, study.intercept));
+        if let Some(&other) = seen_ids.get(&id) {
+            duplicates.push((other, models.len()));
+        } else {
+            seen_ids.insert(id.clone(), models.len());
+        }
+        models.push(PlannedModel {
+            id,
+            choices,
+            outcome,
+            sample: content.sample,
+            terms: model_terms,
+            tracked,
+            intercept: study.intercept,
+        });
+    }
+    let mut plan = Plan {
+        title: study.title.clone(),
+        data_path: study.data_path.clone(),
+        seed: study.seed,
+        dimensions: layout.dimensions.clone(),
+        terms,
+        outcomes,
+        samples: study.samples.clone(),
+        errors: study.errors.clone(),
+        confidence_level: study.confidence_level,
+        significance_level: study.significance_level,
+        row_policy: study.row_policy,
+        size_before_exclusions: count.before_exclusions,
+        size_after_exclusions: count.after_exclusions,
+        random_sample: study
+            .grid
+            .sample
+            .filter(|&n| (n as u128) < count.after_exclusions),
+        baseline: None,
+        factorisations: 0,
+        models,
+    };
+    if !duplicates.is_empty() {
+        return Err(duplicate_problems(study, &plan, &duplicates));
+    }
+    plan.baseline = plan
+        .models
+        .iter()
+        .position(|m| m.choices.iter().all(|&c| c == 0));
+    plan.factorisations = count_factorisations(&plan);
+    Ok(plan)
+}
+
+/// Two choice combinations that give the same regression would count it twice in every
+/// summary; refuse and say which.
+fn duplicate_problems(
+    study: &Study,
+    plan: &Plan,
+    duplicates: &[(usize, usize)],
+) -> Vec<StudyProblem> {
+    let describe = |m: usize| {
+        plan.choice_names(&plan.models[m])
+            .iter()
+            .map(|(d, o)| format!("{d}={o}"))
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    let shown: Vec<String> = duplicates
+        .iter()
+        .take(3)
+        .map(|&(a, b)| format!("[{}] and [{}]", describe(a), describe(b)))
+        .collect();
+    vec![study.source.problem(
+        study.spots.grid,
+        format!(
+            "{} pair(s) of choices give the same model, e.g. {}",
+            duplicates.len(),
+            shown.join("; ")
+        ),
+        Some("a term probably appears both in the focus and in a control block; remove the overlap or add a skip rule in [grid]".into()),
+    )]
+}
+
+/// Models of one sample with the same term set share one factorisation of their design; under
+/// per-model rows the outcome's domain also shapes the rows.
+fn count_factorisations(plan: &Plan) -> usize {
+    let mut keys: HashSet<(usize, Vec<usize>, u8)> = HashSet::new();
+    for m in &plan.models {
+        let mut terms = m.terms.clone();
+        terms.sort_unstable();
+        let domain = match plan.row_policy {
+            RowPolicy::SharedRows => 0,
+            RowPolicy::PerModel => {
+                let o = &plan.outcomes[m.outcome];
+                // Different outcome columns may have different missing cells.
+                let column_tag = plan
+                    .outcomes
+                    .iter()
+                    .position(|x| x.column == o.column)
+                    .unwrap_or(0) as u8;
+                let domain = match o.transform {
+                    Transform::Log => 1,
+                    Transform::Log1p => 2,
+                    _ => 0,
+                };
+                column_tag.wrapping_mul(3).wrapping_add(domain)
+            }
+        };
+        keys.insert((m.sample, terms, domain));
+    }
+    keys.len()
+}
