@@ -108,14 +108,21 @@ pub(crate) fn file_problem(
     }
 }
 
-/// The closest allowed word to a misspelt one, if it is close enough to be a likely typo.
+/// The closest allowed word to a misspelt one, if it is close enough to be a likely typo:
+/// at most two edits away (for words of three letters or more) or a high Jaro–Winkler score.
 pub(crate) fn closest<'a>(word: &str, allowed: &[&'a str]) -> Option<&'a str> {
     allowed
         .iter()
-        .map(|candidate| (strsim::jaro_winkler(word, candidate), *candidate))
-        .filter(|(score, _)| *score >= 0.8)
-        .max_by(|a, b| a.0.total_cmp(&b.0))
-        .map(|(_, candidate)| candidate)
+        .map(|c| {
+            (
+                strsim::levenshtein(word, c),
+                strsim::jaro_winkler(word, c),
+                *c,
+            )
+        })
+        .filter(|(edits, score, _)| (*edits <= 2 && word.chars().count() >= 3) || *score >= 0.85)
+        .min_by(|a, b| a.0.cmp(&b.0).then(b.1.total_cmp(&a.1)))
+        .map(|(_, _, c)| c)
 }
 
 /// "did you mean `x`?" or a list of the allowed words.

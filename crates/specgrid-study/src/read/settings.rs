@@ -65,10 +65,15 @@ pub(crate) fn read_errors(r: &mut Reader<'_>, value: Option<&Val<'_>>) -> Option
 fn level(r: &mut Reader<'_>, v: &Val<'_>, what: &str, example: &str) -> Option<f64> {
     let x = r.number(v, what)?;
     if !(x > 0.0 && x < 1.0) {
+        let hint = if x > 1.0 && x < 100.0 {
+            format!("write a fraction, not a per cent: {}", x / 100.0)
+        } else {
+            example.to_string()
+        };
         r.report(
             v.span().start,
             format!("{what} must be strictly between 0 and 1, found {x}"),
-            Some(example.to_string()),
+            Some(hint),
         );
         return None;
     }
