@@ -58,7 +58,7 @@ fn a_sample_at_least_the_grid_size_takes_the_whole_grid() {
 fn draws_from_a_small_grid_are_uniform() {
     // 16 models, 4 drawn, 2000 seeds: each model is drawn Binomial(2000, 1/4) times,
     // mean 500, sd ≈ 19.4; allow 5 sd.
-    let mut counts = vec![0u32; 16];
+    let mut counts = [0u32; 16];
     for seed in 0..2000u64 {
         let p = plan(&study(&blocks_study(4, "sample = 4", seed))).unwrap();
         assert_eq!(p.models.len(), 4);
