@@ -420,3 +420,17 @@ fn arbitrary_garbage_never_panics() {
         }
     }
 }
+
+#[test]
+fn the_outcome_may_not_be_a_regressor() {
+    let text = format!(
+        "{HEADER}[outcome]\ncolumn = \"y\"\n[focus]\ncolumn = \"x\"\n[[controls]]\nname = \"a\"\nrole = \"always\"\nterms = [{{ column = \"y\", form = \"log\" }}]\n"
+    );
+    expect(
+        &text,
+        5,
+        1,
+        "the outcome column `y` is also used as a regressor (in `log(y)`)",
+        None,
+    );
+}

@@ -57,7 +57,8 @@ pub(crate) fn read_study(r: &mut Reader<'_>, doc: &DeTable<'_>) -> Option<Study>
         source: r.source().clone(),
         spots: Spots { ..spots },
     };
-    if !check_block_names(r, &study, doc) {
+    let outcome_at = outcome_t.map(|(_, at)| at).unwrap_or(0);
+    if !check_block_names(r, &study, doc) || !check_outcome_not_regressor(r, &study, outcome_at) {
         return None;
     }
     study.grid.skip = settings::check_skips(r, &study, skips)?;
@@ -455,4 +456,36 @@ fn check_block_names(r: &mut Reader<'_>, study: &Study, doc: &DeTable<'_>) -> bo
         }
     }
     r.problem_count() == before
+}
+
+/// The outcome column may not also be a regressor: its coefficient would be exactly one.
+fn check_outcome_not_regressor(r: &mut Reader<'_>, study: &Study, at: usize) -> bool {
+    let outcome = study.outcome.column.as_str();
+    let focus = study.focus.forms.iter().flat_map(|f| &f.terms);
+    let extra = study.focus.also_track.iter();
+    let controls = study.controls.iter().flat_map(|b| match &b.role {
+        ControlRole::Always(ts) | ControlRole::Optional(ts) => ts.iter().collect::<Vec<_>>(),
+        ControlRole::Alternatives { options, .. } => {
+            options.iter().flat_map(|o| &o.terms).collect()
+        }
+    });
+    let offending = focus
+        .chain(extra)
+        .chain(controls)
+        .find(|t| t.columns().contains(&outcome));
+    if let Some(term) = offending {
+        r.report(
+            at,
+            format!(
+                "the outcome column `{outcome}` is also used as a regressor (in `{}`)",
+                term.label()
+            ),
+            Some(
+                "remove it from the regressors; a lagged or other version needs its own column"
+                    .into(),
+            ),
+        );
+        return false;
+    }
+    true
 }
