@@ -156,7 +156,13 @@ def fit_model(x, y, clusters, model):
     if base.k_constant:
         # Koenker's studentized form (robust=True): LM = n * R² of e² on the regressors,
         # chi-square with (regressors - 1) df.
-        lm, lm_p, _, _ = het_breuschpagan(base.resid, exog, robust=True)
+        # het_breuschpagan insists on an explicit constant column; a model whose constant is
+        # only implicit (indicators for every level) gets the same column space rewritten with
+        # one ("bp_columns"), which leaves n * R² unchanged.
+        bp_exog = x[:, model["bp_columns"]] if "bp_columns" in model else exog
+        if np.linalg.matrix_rank(np.column_stack([bp_exog, exog])) != k:
+            raise SystemExit(f"{model['label']}: bp_columns do not span the model's columns")
+        lm, lm_p, _, _ = het_breuschpagan(base.resid, bp_exog, robust=True)
         out["breusch_pagan"] = {"lm": float(lm), "p_value": float(lm_p), "df": float(k - 1)}
     return out
 
@@ -276,8 +282,13 @@ def two_way_panel():
     }
 
 
-def redundant_indicator():
-    """Intercept plus an indicator for every level of a 4-level categorical: one column too many."""
+def redundant_indicator(case="redundant_indicator"):
+    """Intercept plus an indicator for every level of a 4-level categorical: one column too many.
+
+    Case `indicators_span_constant` fits the same data with the indicators before the constant,
+    so the constant column is the one dropped; the kept columns still span the constant, and
+    statsmodels (which detects the implicit constant) reports the centred R² and BP df k - 1.
+    """
     seed = 20261204
     rng = np.random.default_rng(seed)
     n = 400
@@ -303,8 +314,20 @@ def redundant_indicator():
             "cluster_dims": [[0]],
         },
     ]
+    if case == "indicators_span_constant":
+        models = [
+            {
+                "label": "indicators_first",
+                "columns": [1, 2, 3, 4, 0, 5, 6],
+                "statsmodels_columns": [1, 2, 3, 4, 5, 6],
+                "bp_columns": [0, 1, 2, 3, 5, 6],
+                "expected_dropped": [0],
+                "outcome": 0,
+                "cluster_dims": [[0]],
+            },
+        ]
     return {
-        "case": "redundant_indicator",
+        "case": case,
         "description": "Constant + indicators for all 4 levels (sum to the constant) + x1, x2; "
         "noise sd 0.5 + 0.2*x2 and a 25-group shock.",
         "seed": seed,
@@ -366,6 +389,7 @@ def main():
         one_way("cluster_200", 20261205, 200, 2, 6),
         two_way_panel(),
         redundant_indicator(),
+        redundant_indicator("indicators_span_constant"),
     ]
     for case in cases:
         doc = build(case)
