@@ -1,11 +1,6 @@
 //! The decision dimensions of a study and the mixed-radix grid over them: counting (never by
 //! enumerating a large grid), skip rules, and seeded random draws.
 
-use std::collections::BTreeSet;
-
-use rand::{Rng, SeedableRng};
-use rand_chacha::ChaCha20Rng;
-
 use crate::plan::{Dimension, DimensionKind, OutcomeForm, Term};
 use crate::study::{ControlRole, GridMode, SkipRule, Study};
 
@@ -227,78 +222,39 @@ impl SkipBox {
         SkipBox(sets)
     }
 
-    pub fn matches(&self, choices: &[usize]) -> bool {
+    /// Whether some point of `region` matches the rule.
+    pub fn touches(&self, region: &[Vec<usize>]) -> bool {
         self.0
             .iter()
-            .zip(choices)
-            .all(|(set, &c)| set.as_ref().is_none_or(|s| s[c]))
+            .zip(region)
+            .all(|(set, options)| set.as_ref().is_none_or(|s| options.iter().any(|&o| s[o])))
     }
 
-    /// Number of grid points in the box (saturating).
-    fn size(&self, radices: &[u128]) -> u128 {
-        self.0.iter().zip(radices).fold(1u128, |acc, (set, &r)| {
-            let n = match set {
-                Some(s) => s.iter().filter(|b| **b).count() as u128,
-                None => r,
-            };
-            acc.saturating_mul(n)
-        })
+    /// Whether every point of `region` matches the rule.
+    pub fn covers(&self, region: &[Vec<usize>]) -> bool {
+        self.0
+            .iter()
+            .zip(region)
+            .all(|(set, options)| set.as_ref().is_none_or(|s| options.iter().all(|&o| s[o])))
     }
 
-    fn intersect(&self, other: &SkipBox) -> SkipBox {
-        SkipBox(
-            self.0
-                .iter()
-                .zip(&other.0)
-                .map(|(a, b)| match (a, b) {
-                    (None, x) | (x, None) => x.clone(),
-                    (Some(a), Some(b)) => Some(a.iter().zip(b).map(|(x, y)| *x && *y).collect()),
-                })
-                .collect(),
-        )
+    /// A dimension on which `region` is partly inside and partly outside the rule, with the
+    /// options of `region` inside the rule (requires `touches` and not `covers`).
+    pub fn split_of(&self, region: &[Vec<usize>]) -> Option<(usize, Vec<bool>)> {
+        self.0
+            .iter()
+            .zip(region)
+            .enumerate()
+            .find_map(|(d, (set, options))| {
+                let s = set.as_ref()?;
+                (!options.iter().all(|&o| s[o])).then(|| (d, s.clone()))
+            })
     }
 }
 
 /// Product of the radices, saturating at `u128::MAX`.
 pub(crate) fn full_size(radices: &[u128]) -> u128 {
     radices.iter().fold(1u128, |acc, &r| acc.saturating_mul(r))
-}
-
-/// Most intersections inclusion–exclusion may visit before giving up.
-const INTERSECTION_BUDGET: usize = 1 << 20;
-
-/// Number of grid points matched by at least one skip box, by inclusion–exclusion over the
-/// boxes (an intersection of boxes is a box; empty intersections prune the search).
-/// `None` if the search would exceed its budget.
-pub(crate) fn count_skipped(boxes: &[SkipBox], radices: &[u128]) -> Option<u128> {
-    // Union size = Σ over non-empty subsets S of (−1)^(|S|+1)·|∩S|; keep the two signs apart.
-    let mut added = 0u128;
-    let mut removed = 0u128;
-    let mut visited = 0usize;
-    // Depth-first over subsets in index order: (next index, intersection, subset size).
-    let mut stack: Vec<(usize, SkipBox, usize)> = Vec::new();
-    for (i, b) in boxes.iter().enumerate() {
-        stack.push((i + 1, b.clone(), 1));
-    }
-    while let Some((next, current, depth)) = stack.pop() {
-        visited += 1;
-        if visited > INTERSECTION_BUDGET {
-            return None;
-        }
-        let size = current.size(radices);
-        if size == 0 {
-            continue;
-        }
-        if depth % 2 == 1 {
-            added = added.saturating_add(size);
-        } else {
-            removed = removed.saturating_add(size);
-        }
-        for (j, b) in boxes.iter().enumerate().skip(next) {
-            stack.push((j + 1, current.intersect(b), depth + 1));
-        }
-    }
-    Some(added.saturating_sub(removed))
 }
 
 /// Choices of the grid point with mixed-radix `index` (the last dimension varies fastest).
@@ -309,76 +265,4 @@ pub(crate) fn decode(mut index: u128, radices: &[u128]) -> Vec<usize> {
         index /= r;
     }
     choices
-}
-
-/// Every grid point not skipped, in grid order. Call only on a grid small enough to walk.
-pub(crate) fn enumerate_kept(radices: &[u128], boxes: &[SkipBox]) -> Vec<u128> {
-    let full = full_size(radices);
-    (0..full)
-        .filter(|&i| {
-            let c = decode(i, radices);
-            !boxes.iter().any(|b| b.matches(&c))
-        })
-        .collect()
-}
-
-/// Largest grid walked point by point (to count or to draw from).
-pub(crate) const WALK_LIMIT: u128 = 2_000_000;
-
-/// Smallest share of a huge grid that skip rules may leave for rejection sampling to work in
-/// reasonable time.
-pub(crate) const MIN_KEPT_SHARE: f64 = 1e-3;
-
-/// Why a random draw failed.
-#[derive(Debug)]
-pub(crate) enum DrawError {
-    /// Skip rules leave too small a share of a huge grid to find kept points by chance.
-    TooSparse,
-}
-
-/// `count` distinct kept grid indices drawn uniformly at random with a seeded ChaCha20
-/// generator (same seed → same draw on every machine), in increasing order.
-/// `kept` is the number of kept points; requires `count < kept`.
-pub(crate) fn draw(
-    radices: &[u128],
-    boxes: &[SkipBox],
-    kept: u128,
-    count: u64,
-    seed: u64,
-) -> Result<Vec<u128>, DrawError> {
-    let mut rng = ChaCha20Rng::seed_from_u64(seed);
-    let full = full_size(radices);
-    if full <= WALK_LIMIT {
-        // Partial Fisher–Yates over the kept points: exact, no rejection.
-        let mut pool = enumerate_kept(radices, boxes);
-        let count = (count as usize).min(pool.len());
-        for i in 0..count {
-            let j = rng.random_range(i..pool.len());
-            pool.swap(i, j);
-        }
-        pool.truncate(count);
-        pool.sort_unstable();
-        return Ok(pool);
-    }
-    // Rejection: a uniform index, kept only if no rule skips it and it is new. Each accepted
-    // draw is uniform over the kept points not yet drawn, so the set is a uniform sample.
-    let mut chosen = BTreeSet::new();
-    let kept_share = kept as f64 / full as f64;
-    if kept_share < MIN_KEPT_SHARE {
-        return Err(DrawError::TooSparse);
-    }
-    let budget = ((count as f64 / kept_share.max(1e-300)) * 20.0).min(1e9) as u64 + 100_000;
-    let mut tries = 0u64;
-    while (chosen.len() as u64) < count {
-        tries += 1;
-        if tries > budget {
-            return Err(DrawError::TooSparse);
-        }
-        let i = rng.random_range(0..full);
-        if boxes.iter().any(|b| b.matches(&decode(i, radices))) {
-            continue;
-        }
-        chosen.insert(i);
-    }
-    Ok(chosen.into_iter().collect())
 }

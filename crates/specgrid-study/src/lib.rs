@@ -6,6 +6,7 @@
 
 mod grid;
 mod ids;
+mod kept;
 pub mod plan;
 mod planner;
 mod problem;

@@ -2,10 +2,9 @@
 
 use std::collections::{HashMap, HashSet};
 
-use crate::grid::{
-    self, count_skipped, decode, draw, full_size, DrawError, Layout, SkipBox, WALK_LIMIT,
-};
+use crate::grid::{decode, full_size, Layout, SkipBox};
 use crate::ids::{canonical_text, model_id};
+use crate::kept::Kept;
 use crate::plan::{Dimension, OutcomeForm, Plan, PlannedModel, RowPolicy, Term, Transform};
 use crate::problem::StudyProblem;
 use crate::study::Study;
@@ -21,31 +20,33 @@ pub struct GridCount {
     pub after_exclusions: u128,
 }
 
-/// Count the grid before and after skip rules (product rule and inclusion–exclusion; a grid
-/// is walked point by point only when it is small).
+/// Count the grid before and after skip rules, without walking it (see `kept.rs`).
 pub fn count_grid(study: &Study) -> Result<GridCount, Vec<StudyProblem>> {
-    let layout = Layout::new(study);
-    let radices = layout.radices();
-    let boxes = skip_boxes(study, &layout);
-    let before = full_size(&radices);
-    let skipped = match count_skipped(&boxes, &radices) {
-        Some(n) => n,
-        None if before <= WALK_LIMIT => {
-            before - grid::enumerate_kept(&radices, &boxes).len() as u128
-        }
-        None => {
-            return Err(vec![study.source.problem(
-                study.spots.grid,
-                format!("too many overlapping skip rules to count a grid of {before} models"),
-                Some("merge skip rules (a rule may list several options per decision)".into()),
-            )])
-        }
-    };
+    let (layout, kept) = kept_grid(study)?;
+    let before = full_size(&layout.radices());
     Ok(GridCount {
         dimensions: layout.dimensions,
         before_exclusions: before,
-        after_exclusions: before.saturating_sub(skipped),
+        after_exclusions: kept.total(),
     })
+}
+
+/// The layout and the kept part of the grid.
+fn kept_grid(study: &Study) -> Result<(Layout, Kept), Vec<StudyProblem>> {
+    let layout = Layout::new(study);
+    let radices = layout.radices();
+    let boxes = skip_boxes(study, &layout);
+    match Kept::new(&radices, &boxes) {
+        Some(kept) => Ok((layout, kept)),
+        None => Err(vec![study.source.problem(
+            study.spots.grid,
+            format!(
+                "the skip rules overlap in too many ways to count a grid of {} models",
+                count_text(full_size(&radices))
+            ),
+            Some("merge skip rules (a rule may list several options per decision)".into()),
+        )]),
+    }
 }
 
 fn skip_boxes(study: &Study, layout: &Layout) -> Vec<SkipBox> {
@@ -60,17 +61,19 @@ fn skip_boxes(study: &Study, layout: &Layout) -> Vec<SkipBox> {
 /// Expand a study into its models: count, refuse past the limit, apply skip rules, draw the
 /// random sample if asked, and describe every model with its terms and stable id.
 pub fn plan(study: &Study) -> Result<Plan, Vec<StudyProblem>> {
-    let count = count_grid(study)?;
-    let layout = Layout::new(study);
-    let radices = layout.radices();
-    let boxes = skip_boxes(study, &layout);
+    let (layout, kept_points) = kept_grid(study)?;
+    let count = GridCount {
+        dimensions: layout.dimensions.clone(),
+        before_exclusions: full_size(&layout.radices()),
+        after_exclusions: kept_points.total(),
+    };
     let kept = count.after_exclusions;
     if kept == 0 {
         return Err(vec![study.source.problem(
             study.spots.grid,
             format!(
                 "the skip rules leave none of the {} models",
-                count.before_exclusions
+                count_text(count.before_exclusions)
             ),
             Some("loosen the skip rules in [grid]".into()),
         )]);
@@ -99,15 +102,9 @@ pub fn plan(study: &Study) -> Result<Plan, Vec<StudyProblem>> {
         )]);
     }
     let indices = if wanted == kept {
-        grid::enumerate_kept(&radices, &boxes)
+        kept_points.all()
     } else {
-        draw(&radices, &boxes, kept, wanted as u64, study.seed).map_err(|DrawError::TooSparse| {
-            vec![study.source.problem(
-                study.spots.sample,
-                format!("the skip rules keep only {kept} of {} models, too few to draw from at random", count_text(count.before_exclusions)),
-                Some("remove `sample` and list the decisions more narrowly, or loosen the skip rules".into()),
-            )]
-        })?
+        kept_points.draw(wanted, study.seed)
     };
     build(study, &layout, &count, indices)
 }

@@ -127,7 +127,8 @@ fn nested_mode_adds_optional_blocks_cumulatively() {
 }
 
 #[test]
-fn skip_rules_count_by_inclusion_exclusion() {
+fn skip_rules_remove_exactly_the_matching_models() {
+    // Expected by inclusion–exclusion, worked by hand.
     // Rule A: outcome=log & focus=quadratic → 1·1·2·3·2·2 = 24 models.
     // Rule B: group∈{g1,g2} & sample=flat → 3·2·2·2·2·1 = 48 models.
     // A∩B → 1·1·2·2·2·1 = 8. Union = 24 + 48 − 8 = 64; kept = 144 − 64 = 80.

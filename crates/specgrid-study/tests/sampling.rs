@@ -121,19 +121,36 @@ fn a_sample_past_the_limit_is_refused() {
 }
 
 #[test]
-fn sampling_a_huge_grid_that_skip_rules_nearly_empty_is_refused_not_hung() {
-    // 2^40 models, the rule skips all with b0 = in or … : keep only b0..b11 all out,
-    // a share of 2^-12 < 1e-3 of the grid.
+fn sampling_a_huge_grid_that_skip_rules_nearly_empty_still_works() {
+    // 2^40 models; twelve rules skip every model with any of b0..b11 in, keeping 2^28
+    // (a share of 2^-12): draws come from the kept part directly, not by trial and error.
     let rules: Vec<String> = (0..12).map(|i| format!("{{ b{i} = \"in\" }}")).collect();
     let text = blocks_study(
         40,
         &format!("sample = 10\nskip = [{}]", rules.join(", ")),
         1,
     );
-    let problems = plan(&study(&text)).unwrap_err();
-    assert!(
-        problems[0].message.contains("too few to draw from"),
-        "{}",
-        problems[0]
-    );
+    let p = plan(&study(&text)).unwrap();
+    assert_eq!(p.size_after_exclusions, 1u128 << 28);
+    assert_eq!(p.models.len(), 10);
+    for m in &p.models {
+        assert!(
+            m.choices[2..14].iter().all(|&c| c == 0),
+            "a skipped model was drawn"
+        );
+    }
+}
+
+#[test]
+fn a_huge_grid_that_skip_rules_shrink_below_the_limit_is_planned_in_full() {
+    // 2^60 models; fifty rules skip any model with one of b0..b49 in: 2^10 = 1024 remain,
+    // under the default limit, so all are planned without walking the 2^60 grid.
+    let rules: Vec<String> = (0..50).map(|i| format!("{{ b{i} = \"in\" }}")).collect();
+    let text = blocks_study(60, &format!("skip = [{}]", rules.join(", ")), 1);
+    let p = plan(&study(&text)).unwrap();
+    assert_eq!(p.size_before_exclusions, 1u128 << 60);
+    assert_eq!(p.size_after_exclusions, 1024);
+    assert_eq!(p.models.len(), 1024);
+    let ids: HashSet<&str> = p.models.iter().map(|m| m.id.as_str()).collect();
+    assert_eq!(ids.len(), 1024);
 }
