@@ -434,3 +434,17 @@ fn the_outcome_may_not_be_a_regressor() {
         None,
     );
 }
+
+#[test]
+fn a_tracked_term_no_model_can_contain_is_refused() {
+    let text = format!(
+        "{HEADER}[outcome]\ncolumn = \"y\"\n[focus]\ncolumn = \"x\"\nalso_track = [{{ product = [\"x\", \"z\"] }}]\n[[controls]]\nname = \"a\"\nrole = \"optional\"\nterms = [{{ product = [\"x\", \"w\"] }}]\n"
+    );
+    expect(
+        &text,
+        9,
+        14,
+        "`also_track` lists `x × z`, which no focus form or control block contains",
+        Some("add the term"),
+    );
+}

@@ -58,7 +58,14 @@ pub(crate) fn read_study(r: &mut Reader<'_>, doc: &DeTable<'_>) -> Option<Study>
         spots: Spots { ..spots },
     };
     let outcome_at = outcome_t.map(|(_, at)| at).unwrap_or(0);
-    if !check_block_names(r, &study, doc) || !check_outcome_not_regressor(r, &study, outcome_at) {
+    let also_track_at = focus_t
+        .and_then(|(t, _)| t.get("also_track"))
+        .map(|v| v.span().start)
+        .unwrap_or(0);
+    if !check_block_names(r, &study, doc)
+        || !check_outcome_not_regressor(r, &study, outcome_at)
+        || !check_also_tracked_exist(r, &study, also_track_at)
+    {
         return None;
     }
     study.grid.skip = settings::check_skips(r, &study, skips)?;
@@ -458,20 +465,48 @@ fn check_block_names(r: &mut Reader<'_>, study: &Study, doc: &DeTable<'_>) -> bo
     r.problem_count() == before
 }
 
-/// The outcome column may not also be a regressor: its coefficient would be exactly one.
-fn check_outcome_not_regressor(r: &mut Reader<'_>, study: &Study, at: usize) -> bool {
-    let outcome = study.outcome.column.as_str();
+/// Every regressor term a study can put in a model, with duplicates.
+fn all_regressors(study: &Study) -> Vec<&Term> {
     let focus = study.focus.forms.iter().flat_map(|f| &f.terms);
-    let extra = study.focus.also_track.iter();
     let controls = study.controls.iter().flat_map(|b| match &b.role {
         ControlRole::Always(ts) | ControlRole::Optional(ts) => ts.iter().collect::<Vec<_>>(),
         ControlRole::Alternatives { options, .. } => {
             options.iter().flat_map(|o| &o.terms).collect()
         }
     });
-    let offending = focus
-        .chain(extra)
-        .chain(controls)
+    focus.chain(controls).collect()
+}
+
+/// A tracked term that no model can contain is almost surely a typo; it would silently never
+/// be reported.
+fn check_also_tracked_exist(r: &mut Reader<'_>, study: &Study, at: usize) -> bool {
+    let present: HashSet<String> = all_regressors(study)
+        .iter()
+        .map(|t| t.canonical())
+        .collect();
+    let mut ok = true;
+    for term in &study.focus.also_track {
+        if !present.contains(&term.canonical()) {
+            r.report(
+                at,
+                format!(
+                    "`also_track` lists `{}`, which no focus form or control block contains",
+                    term.label()
+                ),
+                Some("add the term to a control block, or check its spelling and form".into()),
+            );
+            ok = false;
+        }
+    }
+    ok
+}
+
+/// The outcome column may not also be a regressor: its coefficient would be exactly one.
+fn check_outcome_not_regressor(r: &mut Reader<'_>, study: &Study, at: usize) -> bool {
+    let outcome = study.outcome.column.as_str();
+    let offending = all_regressors(study)
+        .into_iter()
+        .chain(&study.focus.also_track)
         .find(|t| t.columns().contains(&outcome));
     if let Some(term) = offending {
         r.report(
