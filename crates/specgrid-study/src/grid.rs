@@ -1,8 +1,57 @@
 //! The decision dimensions of a study and the mixed-radix grid over them: counting (never by
 //! enumerating a large grid), skip rules, and seeded random draws.
 
-use crate::plan::{Dimension, DimensionKind, OutcomeForm, Term};
+use std::collections::HashMap;
+
+use crate::plan::{Dimension, DimensionKind, Term};
 use crate::study::{ControlRole, GridMode, SkipRule, Study};
+
+/// Every distinct regressor term of a study, numbered once, with its canonical text, so that
+/// expanding many models never formats or compares terms again.
+#[derive(Debug, Clone, Default)]
+pub(crate) struct TermTable {
+    /// Distinct terms.
+    pub terms: Vec<Term>,
+    /// Canonical text of each term.
+    pub keys: Vec<String>,
+    /// Position of each term when the keys are sorted (orders a model's terms for its id).
+    pub rank: Vec<usize>,
+    by_key: HashMap<String, usize>,
+}
+
+impl TermTable {
+    fn intern(&mut self, term: &Term) -> usize {
+        let key = term.canonical();
+        if let Some(&i) = self.by_key.get(&key) {
+            return i;
+        }
+        self.terms.push(term.clone());
+        self.keys.push(key.clone());
+        self.by_key.insert(key, self.terms.len() - 1);
+        self.terms.len() - 1
+    }
+
+    /// Intern a list, dropping repeats within it.
+    fn intern_all(&mut self, terms: &[Term]) -> Vec<usize> {
+        let mut out = Vec::with_capacity(terms.len());
+        for t in terms {
+            let i = self.intern(t);
+            if !out.contains(&i) {
+                out.push(i);
+            }
+        }
+        out
+    }
+
+    fn finish_ranks(&mut self) {
+        let mut order: Vec<usize> = (0..self.keys.len()).collect();
+        order.sort_by(|&a, &b| self.keys[a].cmp(&self.keys[b]));
+        self.rank = vec![0; order.len()];
+        for (position, &i) in order.iter().enumerate() {
+            self.rank[i] = position;
+        }
+    }
+}
 
 /// How one control block is resolved from a model's choices.
 #[derive(Debug, Clone, Copy)]
@@ -22,20 +71,31 @@ enum BlockSource {
 pub(crate) struct Layout {
     /// Dimensions in grid order (the first varies slowest).
     pub dimensions: Vec<Dimension>,
+    /// Every regressor term of the study.
+    pub table: TermTable,
     blocks: Vec<BlockSource>,
+    /// Term numbers of each focus form.
+    focus_terms: Vec<Vec<usize>>,
+    /// Term numbers of each block: one list for always/optional blocks, one per option for
+    /// alternatives (without the `none` option).
+    block_terms: Vec<Vec<Vec<usize>>>,
+    /// Whether each term is listed in `also_track`.
+    also_tracked: Vec<bool>,
     outcome_dim: usize,
     focus_dim: usize,
     sample_dim: usize,
 }
 
-/// The content of one model, before terms are numbered.
-pub(crate) struct ModelContent<'s> {
-    pub outcome: &'s OutcomeForm,
+/// The content of one model, with terms numbered in [`Layout::table`].
+pub(crate) struct ModelContent {
+    /// Index into the study's outcome forms.
+    pub outcome: usize,
+    /// Index into the study's samples.
     pub sample: usize,
     /// Terms in model order, deduplicated.
-    pub terms: Vec<&'s Term>,
+    pub terms: Vec<usize>,
     /// Tracked terms, in model order.
-    pub tracked: Vec<&'s Term>,
+    pub tracked: Vec<usize>,
 }
 
 impl Layout {
@@ -117,9 +177,36 @@ impl Layout {
             DimensionKind::Sample,
             study.samples.iter().map(|s| s.name.clone()).collect(),
         );
+        let mut table = TermTable::default();
+        let focus_terms = study
+            .focus
+            .forms
+            .iter()
+            .map(|f| table.intern_all(&f.terms))
+            .collect();
+        let block_terms = study
+            .controls
+            .iter()
+            .map(|b| match &b.role {
+                ControlRole::Always(ts) | ControlRole::Optional(ts) => vec![table.intern_all(ts)],
+                ControlRole::Alternatives { options, .. } => {
+                    options.iter().map(|o| table.intern_all(&o.terms)).collect()
+                }
+            })
+            .collect();
+        let extra = table.intern_all(&study.focus.also_track);
+        table.finish_ranks();
+        let mut also_tracked = vec![false; table.terms.len()];
+        for i in extra {
+            also_tracked[i] = true;
+        }
         Layout {
             dimensions,
+            table,
             blocks,
+            focus_terms,
+            block_terms,
+            also_tracked,
             outcome_dim,
             focus_dim,
             sample_dim,
@@ -135,61 +222,40 @@ impl Layout {
     }
 
     /// The model a choice vector describes.
-    pub fn content<'s>(&self, study: &'s Study, choices: &[usize]) -> ModelContent<'s> {
-        let outcome = &study.outcome.forms[choices[self.outcome_dim]].1;
-        let focus_terms = &study.focus.forms[choices[self.focus_dim]].terms;
-        let mut terms: Vec<&Term> = Vec::new();
-        let mut keys: Vec<String> = Vec::new();
-        let mut add = |t: &'s Term, terms: &mut Vec<&'s Term>| {
-            let key = t.canonical();
-            if !keys.contains(&key) {
-                keys.push(key);
-                terms.push(t);
+    pub fn content(&self, choices: &[usize]) -> ModelContent {
+        let focus = &self.focus_terms[choices[self.focus_dim]];
+        let mut present = vec![false; self.table.terms.len()];
+        let mut terms = Vec::new();
+        let mut add = |list: &[usize], terms: &mut Vec<usize>| {
+            for &t in list {
+                if !present[t] {
+                    present[t] = true;
+                    terms.push(t);
+                }
             }
         };
-        for t in focus_terms {
-            add(t, &mut terms);
-        }
-        for (block, source) in study.controls.iter().zip(&self.blocks) {
-            let chosen: &[Term] = match (&block.role, *source) {
-                (ControlRole::Always(ts), _) => ts,
-                (ControlRole::Optional(ts), BlockSource::Optional { dim }) if choices[dim] == 1 => {
-                    ts
-                }
-                (ControlRole::Optional(ts), BlockSource::Nested { dim, step })
-                    if choices[dim] >= step =>
-                {
-                    ts
-                }
-                (
-                    ControlRole::Alternatives { options, .. },
-                    BlockSource::Alternatives { dim, none_first },
-                ) => {
-                    let c = choices[dim];
-                    match (none_first, c) {
-                        (true, 0) => &[],
-                        (true, c) => &options[c - 1].terms,
-                        (false, c) => &options[c].terms,
-                    }
-                }
+        add(focus, &mut terms);
+        for (lists, source) in self.block_terms.iter().zip(&self.blocks) {
+            let chosen: &[usize] = match *source {
+                BlockSource::Always => &lists[0],
+                BlockSource::Optional { dim } if choices[dim] == 1 => &lists[0],
+                BlockSource::Nested { dim, step } if choices[dim] >= step => &lists[0],
+                BlockSource::Alternatives { dim, none_first } => match (none_first, choices[dim]) {
+                    (true, 0) => &[],
+                    (true, c) => &lists[c - 1],
+                    (false, c) => &lists[c],
+                },
                 _ => &[],
             };
-            for t in chosen {
-                add(t, &mut terms);
-            }
+            add(chosen, &mut terms);
         }
-        let focus_keys: Vec<String> = focus_terms.iter().map(Term::canonical).collect();
-        let extra_keys: Vec<String> = study.focus.also_track.iter().map(Term::canonical).collect();
         let tracked = terms
             .iter()
             .copied()
-            .filter(|t| {
-                let k = t.canonical();
-                focus_keys.contains(&k) || extra_keys.contains(&k)
-            })
+            .filter(|&t| self.also_tracked[t] || focus.contains(&t))
             .collect();
         ModelContent {
-            outcome,
+            outcome: choices[self.outcome_dim],
             sample: choices[self.sample_dim],
             terms,
             tracked,

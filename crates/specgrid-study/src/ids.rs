@@ -2,8 +2,8 @@
 
 use sha2::{Digest, Sha256};
 
-use crate::grid::ModelContent;
-use crate::plan::{Condition, Sample, Term, Value};
+use crate::grid::{ModelContent, TermTable};
+use crate::plan::{Condition, OutcomeForm, Sample, Term, Value};
 
 /// Hex digits kept from the SHA-256.
 const ID_DIGITS: usize = 12;
@@ -11,27 +11,37 @@ const ID_DIGITS: usize = 12;
 /// The canonical text of a model: outcome, its term set and tracked set (sorted, so block
 /// order does not matter), the sample's name and conditions, and the intercept.
 pub(crate) fn canonical_text(
-    content: &ModelContent<'_>,
-    sample: &Sample,
+    table: &TermTable,
+    content: &ModelContent,
+    outcome: &OutcomeForm,
+    sample: &str,
     intercept: bool,
 ) -> String {
-    let mut terms: Vec<String> = content.terms.iter().map(|t| t.canonical()).collect();
-    terms.sort();
-    let mut tracked: Vec<String> = content.tracked.iter().map(|t| t.canonical()).collect();
-    tracked.sort();
-    let conditions: Vec<String> = sample.conditions.iter().map(condition_text).collect();
+    let sorted_keys = |list: &[usize]| {
+        let mut ordered = list.to_vec();
+        ordered.sort_by_key(|&t| table.rank[t]);
+        ordered
+            .iter()
+            .map(|&t| table.keys[t].as_str())
+            .collect::<Vec<_>>()
+            .join(";")
+    };
     let outcome = Term::Numeric {
-        column: content.outcome.column.clone(),
-        transform: content.outcome.transform.clone(),
+        column: outcome.column.clone(),
+        transform: outcome.transform.clone(),
     }
     .canonical();
     format!(
-        "specgrid-model-v1\noutcome={outcome}\nterms={}\ntracked={}\nsample={:?}:{}\nintercept={intercept}\n",
-        terms.join(";"),
-        tracked.join(";"),
-        sample.name,
-        conditions.join(";"),
+        "specgrid-model-v1\noutcome={outcome}\nterms={}\ntracked={}\nsample={sample}\nintercept={intercept}\n",
+        sorted_keys(&content.terms),
+        sorted_keys(&content.tracked),
     )
+}
+
+/// The sample part of the canonical text: `"name":condition;condition`.
+pub(crate) fn sample_text(sample: &Sample) -> String {
+    let conditions: Vec<String> = sample.conditions.iter().map(condition_text).collect();
+    format!("{:?}:{}", sample.name, conditions.join(";"))
 }
 
 fn condition_text(c: &Condition) -> String {

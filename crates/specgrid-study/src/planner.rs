@@ -3,7 +3,7 @@
 use std::collections::{HashMap, HashSet};
 
 use crate::grid::{decode, full_size, Layout, SkipBox};
-use crate::ids::{canonical_text, model_id};
+use crate::ids::{canonical_text, model_id, sample_text};
 use crate::kept::Kept;
 use crate::plan::{Dimension, OutcomeForm, Plan, PlannedModel, RowPolicy, Term, Transform};
 use crate::problem::StudyProblem;
@@ -127,33 +127,40 @@ fn build(
     indices: Vec<u128>,
 ) -> Result<Plan, Vec<StudyProblem>> {
     let radices = layout.radices();
+    let table = &layout.table;
+    // Study term number → plan term number, assigned in first-use order.
+    let mut plan_term: Vec<Option<usize>> = vec![None; table.terms.len()];
     let mut terms: Vec<Term> = Vec::new();
-    let mut term_index: HashMap<String, usize> = HashMap::new();
+    let mut plan_outcome: Vec<Option<usize>> = vec![None; study.outcome.forms.len()];
     let mut outcomes: Vec<OutcomeForm> = Vec::new();
+    let sample_texts: Vec<String> = study.samples.iter().map(sample_text).collect();
     let mut models = Vec::with_capacity(indices.len());
     let mut seen_ids: HashMap<String, usize> = HashMap::new();
     let mut duplicates = Vec::new();
     for index in indices {
         let choices = decode(index, &radices);
-        let content = layout.content(study, &choices);
-        let mut number = |t: &Term| -> usize {
-            let key = t.canonical();
-            *term_index.entry(key).or_insert_with(|| {
-                terms.push(t.clone());
+        let content = layout.content(&choices);
+        let mut number = |t: usize| -> usize {
+            *plan_term[t].get_or_insert_with(|| {
+                terms.push(table.terms[t].clone());
                 terms.len() - 1
             })
         };
-        let model_terms: Vec<usize> = content.terms.iter().map(|t| number(t)).collect();
-        let tracked: Vec<usize> = content.tracked.iter().map(|t| number(t)).collect();
-        let outcome = match outcomes.iter().position(|o| o == content.outcome) {
-            Some(i) => i,
-            None => {
-                outcomes.push(content.outcome.clone());
-                outcomes.len() - 1
-            }
-        };
-        let sample = &study.samples[content.sample];
-        let id = model_id(&canonical_text(&content, sample, study.intercept));
+        let model_terms: Vec<usize> = content.terms.iter().map(|&t| number(t)).collect();
+        let tracked: Vec<usize> = content.tracked.iter().map(|&t| number(t)).collect();
+        let form = &study.outcome.forms[content.outcome].1;
+        let outcome = *plan_outcome[content.outcome].get_or_insert_with(|| {
+            outcomes.push(form.clone());
+            outcomes.len() - 1
+        });
+        let text = canonical_text(
+            table,
+            &content,
+            form,
+            &sample_texts[content.sample],
+            study.intercept,
+        );
+        let id = model_id(&text);
         if let Some(&other) = seen_ids.get(&id) {
             duplicates.push((other, models.len()));
         } else {
