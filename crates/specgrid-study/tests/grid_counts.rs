@@ -227,3 +227,24 @@ fn skip_rules_that_leave_nothing_are_refused() {
         problems[0]
     );
 }
+
+#[test]
+fn nested_mode_steps_can_be_skipped_by_name() {
+    // Skip the last step with the log outcome: 1 outcome × 2 focus × 1 step × 3 group × 2
+    // samples = 12 of the 108 nested models.
+    let body = DECISIONS.to_string()
+        + "[grid]\nmode = \"nested\"\nskip = [{ controls = \"size + soil\", outcome = \"log\" }]\n";
+    let p = plan(&study(&text(&body))).unwrap();
+    assert_eq!(p.size_after_exclusions, 108 - 12);
+    assert_eq!(p.models.len(), 96);
+}
+
+#[test]
+fn nested_mode_without_optional_blocks_has_no_controls_decision() {
+    let body = DECISIONS.replace("role = \"optional\"", "role = \"always\"")
+        + "[grid]\nmode = \"nested\"\n";
+    let p = plan(&study(&text(&body))).unwrap();
+    assert!(p.dimensions.iter().all(|d| d.name != "controls"));
+    // 3 × 2 × 3 (group) × 2 samples.
+    assert_eq!(p.models.len(), 36);
+}

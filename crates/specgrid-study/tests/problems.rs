@@ -448,3 +448,15 @@ fn a_tracked_term_no_model_can_contain_is_refused() {
         Some("add the term"),
     );
 }
+
+#[test]
+fn a_single_bracket_list_section_gets_a_hint() {
+    let text = format!("{HEADER}{DECISIONS}[samples]\nname = \"s\"\n");
+    expect(
+        &text,
+        9,
+        1,
+        "[[samples]] must be a list of tables, found a table",
+        Some("double brackets"),
+    );
+}

@@ -29,7 +29,7 @@ pub(crate) fn read_samples(r: &mut Reader<'_>, value: Option<&Val<'_>>) -> Optio
             conditions: Vec::new(),
         }]);
     };
-    let items = r.array(value, "[[samples]]")?;
+    let items = r.table_array(value, "samples")?;
     if items.is_empty() {
         r.report(
             value.span().start,

@@ -294,7 +294,7 @@ fn read_controls(r: &mut Reader<'_>, value: Option<&Val<'_>>) -> Option<Vec<Cont
     let Some(value) = value else {
         return Some(Vec::new());
     };
-    let items = r.array(value, "[[controls]]")?;
+    let items = r.table_array(value, "controls")?;
     let before = r.problem_count();
     let mut blocks = Vec::new();
     for (i, item) in items.iter().enumerate() {

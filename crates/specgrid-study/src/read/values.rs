@@ -192,6 +192,26 @@ impl<'s> Reader<'s> {
         }
     }
 
+    /// An array of tables written with `[[name]]`; a single `[name]` table gets a hint.
+    pub fn table_array<'v, 'i>(&mut self, value: &'v Val<'i>, name: &str) -> Option<&'v [Val<'i>]> {
+        match value.get_ref() {
+            DeValue::Array(a) => Some(a),
+            other => {
+                self.report(
+                    value.span().start,
+                    format!(
+                        "[[{name}]] must be a list of tables, found {}",
+                        a_type(other)
+                    ),
+                    Some(format!(
+                        "write each entry under its own [[{name}]] header (double brackets)"
+                    )),
+                );
+                None
+            }
+        }
+    }
+
     pub fn array<'v, 'i>(&mut self, value: &'v Val<'i>, what: &str) -> Option<&'v [Val<'i>]> {
         match value.get_ref() {
             DeValue::Array(a) => Some(a),
