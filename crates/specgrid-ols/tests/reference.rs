@@ -17,7 +17,8 @@
 
 use serde::Deserialize;
 use specgrid_ols::{
-    ClusterIds, Covariance, Design, FitOptions, ModelError, ModelFit, ModelSpec, SharedFactor,
+    fit_independent, ClusterIds, Covariance, Design, FitOptions, ModelError, ModelFit, ModelSpec,
+    SharedFactor,
 };
 use std::path::PathBuf;
 
@@ -200,8 +201,9 @@ impl Checker {
 
     fn equal<T: PartialEq + std::fmt::Debug>(&mut self, what: String, ours: T, reference: T) {
         if ours != reference {
-            self.failures
-                .push(format!("{what}: engine {ours:?}, statsmodels {reference:?}"));
+            self.failures.push(format!(
+                "{what}: engine {ours:?}, statsmodels {reference:?}"
+            ));
         }
     }
 }
@@ -214,7 +216,11 @@ fn check_model(c: &mut Checker, f: &Fixture, opts: &FitOptions, m: &FixtureModel
     c.equal(at("n_obs"), fit.n_obs as f64, m.nobs);
     c.equal(at("df_resid"), fit.df_resid as f64, m.df_resid);
     c.equal(at("n_params"), fit.n_params, k);
-    c.equal(at("dropped"), fit.dropped.clone(), m.expected_dropped.clone());
+    c.equal(
+        at("dropped"),
+        fit.dropped.clone(),
+        m.expected_dropped.clone(),
+    );
     let kept: Vec<usize> = fit.all_estimates.iter().map(|(col, _)| *col).collect();
     c.equal(at("kept columns"), kept, m.statsmodels_columns.clone());
     for ((col, est), reference) in fit.all_estimates.iter().zip(&m.params) {
@@ -242,9 +248,18 @@ fn check_model(c: &mut Checker, f: &Fixture, opts: &FitOptions, m: &FixtureModel
     c.equal(at("coefficient count"), fit.coefficients.len(), k);
     for (i, coef) in fit.coefficients.iter().enumerate().take(k) {
         let name = &f.x_names[m.statsmodels_columns[i]];
-        c.equal(at(&format!("coefficient {i} column")), coef.column, m.statsmodels_columns[i]);
+        c.equal(
+            at(&format!("coefficient {i} column")),
+            coef.column,
+            m.statsmodels_columns[i],
+        );
         // Source: statsmodels OLS params.
-        c.close(at(&format!("{name} estimate")), coef.estimate, m.params[i], RTOL);
+        c.close(
+            at(&format!("{name} estimate")),
+            coef.estimate,
+            m.params[i],
+            RTOL,
+        );
         c.equal(
             at(&format!("{name} inference count")),
             coef.inference.len(),
@@ -275,11 +290,13 @@ fn check_model(c: &mut Checker, f: &Fixture, opts: &FitOptions, m: &FixtureModel
     }
 }
 
-/// Fits every model of the case through `fit_many` (and the first through `fit`) and compares.
+/// Fits every model of the case through `fit_many`, the first through `fit`, and every one
+/// through `fit_independent` (a fresh QR per model), and compares each with statsmodels.
 fn check_case(case: &str) {
     let f = load(case);
     let opts = options(&f);
-    let factor = SharedFactor::new(&design(&f))
+    let design = design(&f);
+    let factor = SharedFactor::new(&design)
         .unwrap_or_else(|e| panic!("{case}: SharedFactor::new refused the design: {e}"));
     let specs: Vec<ModelSpec> = f.models.iter().map(spec).collect();
     let fits = factor.fit_many(&specs, &opts);
@@ -291,13 +308,23 @@ fn check_case(case: &str) {
     for (m, fit) in f.models.iter().zip(&fits) {
         match fit {
             Ok(fit) => check_model(&mut c, &f, &opts, m, fit),
-            Err(e) => c.failures.push(format!("{case} / {}: engine error: {e}", m.label)),
+            Err(e) => c
+                .failures
+                .push(format!("{case} / {}: engine error: {e}", m.label)),
         }
     }
     // The single-model entry point must give the same numbers as the batch one.
     match factor.fit(&specs[0], &opts) {
         Ok(fit) => check_model(&mut c, &f, &opts, &f.models[0], &fit),
         Err(e) => c.failures.push(format!("{case}: fit() error: {e}")),
+    }
+    for (m, s) in f.models.iter().zip(&specs) {
+        match fit_independent(&design, s, &opts) {
+            Ok(fit) => check_model(&mut c, &f, &opts, m, &fit),
+            Err(e) => c
+                .failures
+                .push(format!("{case} / {}: fit_independent error: {e}", m.label)),
+        }
     }
     assert!(
         c.failures.is_empty(),
@@ -340,7 +367,8 @@ fn redundant_indicator_is_dropped_and_the_rest_matches_statsmodels() {
 fn empty_tracked_list_reports_every_kept_column() {
     let f = load("redundant_indicator");
     let opts = options(&f);
-    let factor = SharedFactor::new(&design(&f)).expect("design accepted");
+    let design = design(&f);
+    let factor = SharedFactor::new(&design).expect("design accepted");
     let m = &f.models[0];
     let request = ModelSpec {
         tracked: Vec::new(),
@@ -360,7 +388,8 @@ fn empty_tracked_list_reports_every_kept_column() {
 #[test]
 fn tracking_the_dropped_indicator_is_refused() {
     let f = load("redundant_indicator");
-    let factor = SharedFactor::new(&design(&f)).expect("design accepted");
+    let design = design(&f);
+    let factor = SharedFactor::new(&design).expect("design accepted");
     let m = &f.models[0];
     let dropped = m.expected_dropped[0];
     let request = ModelSpec {
@@ -369,7 +398,10 @@ fn tracking_the_dropped_indicator_is_refused() {
     };
     match factor.fit(&request, &options(&f)) {
         Err(ModelError::TrackedDropped { name }) => assert_eq!(name, f.x_names[dropped]),
-        other => panic!("expected TrackedDropped for {}, got {other:?}", f.x_names[dropped]),
+        other => panic!(
+            "expected TrackedDropped for {}, got {other:?}",
+            f.x_names[dropped]
+        ),
     }
 }
 
