@@ -1,1 +1,138 @@
-//! placeholder
+//! The robustness report of a specification grid: aggregates over the models and the
+//! renderers (terminal text, `summary.json`, `report.html`, `report.md`, `appendix.tex`).
+//!
+//! # Contract with the binary
+//!
+//! 1. Build a [`ReportInput`]: the decisions ([`DimensionInfo`]), the covariance choice labels,
+//!    and per model a [`ModelEntry`] holding the tracked effect under each covariance choice.
+//!    - `specgrid run`: for each model and covariance choice call [`effect()`] with the model's
+//!      outcome and focus forms, focus coefficients, their SEs (and covariance matrix if the
+//!      engine provides one), and the evaluation point (means of the raw focus and outcome over
+//!      the model's rows unless the study names values; the raw focus sd for a standardized
+//!      focus; the moderator value for an interaction).
+//!    - `specgrid report DIR`: read `models.csv` into [`ResultRow`]s and call
+//!      [`ReportInput::from_rows`] (scale `coefficient`).
+//! 2. Call [`Report::build`], then write its outputs with [`Report::write_all`] (or take the
+//!    strings: [`Report::summary_json`], [`Report::terminal`], [`Report::html`],
+//!    [`Report::markdown`], [`Report::latex`]). The same input always gives the same bytes.
+//!
+//! The crate never reads data files and does not depend on polars or faer.
+
+mod aggregate;
+mod effect;
+// mod html;
+mod input;
+// mod latex;
+// mod markdown;
+mod rows;
+mod stats;
+mod summary;
+// mod svg;
+mod terminal;
+mod text;
+
+use std::path::Path;
+
+pub use aggregate::{baseline_index, significance, summarize, CAUTIONS, SUMMARY_FORMAT};
+pub use effect::{
+    effect, Derived, Effect, EffectError, EffectInputs, EvaluationPoint, FocusForm, OutcomeForm,
+    Scale,
+};
+pub use input::{DimensionInfo, ModelEntry, ModelStatus, ReportInput};
+pub use rows::{dimensions_from_rows, ReportHeader, ResultRow};
+pub use summary::*;
+
+/// Why a report cannot be built or written.
+#[derive(Debug, thiserror::Error)]
+pub enum ReportError {
+    /// The input is inconsistent (a bug in the caller or a damaged results folder).
+    #[error("report input: {0}")]
+    Input(String),
+    /// A results row cannot be used.
+    #[error("models.csv row {row}: {message}")]
+    Row {
+        /// 1-based data row number (the header is row 0).
+        row: usize,
+        /// What is wrong and what to do.
+        message: String,
+    },
+    /// An output file could not be written.
+    #[error("cannot write {path}: {source}; check that the folder exists and is writable")]
+    Write {
+        /// The file.
+        path: String,
+        /// The cause.
+        source: std::io::Error,
+    },
+}
+
+/// A built report: the input and its aggregates, ready to render.
+#[derive(Debug, Clone)]
+pub struct Report {
+    /// What the report was built from.
+    pub input: ReportInput,
+    /// The aggregates.
+    pub summary: Summary,
+}
+
+/// File names [`Report::write_all`] writes, in order.
+pub const OUTPUT_FILES: [&str; 4] = ["summary.json", "report.html", "report.md", "appendix.tex"];
+
+impl Report {
+    /// Checks the input and computes the aggregates.
+    pub fn build(input: ReportInput) -> Result<Report, ReportError> {
+        let summary = summarize(&input)?;
+        Ok(Report { input, summary })
+    }
+
+    /// `summary.json`: pretty-printed, keys in a fixed order, numbers in shortest round-trip
+    /// form, non-finite numbers as `null`, ending in a newline.
+    pub fn summary_json(&self) -> String {
+        let mut s = serde_json::to_string_pretty(&self.summary)
+            .unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"));
+        s.push('\n');
+        s
+    }
+
+    /// The compact terminal summary.
+    pub fn terminal(&self) -> String {
+        terminal::render(self)
+    }
+
+    /// The self-contained `report.html`.
+    pub fn html(&self) -> String {
+        String::new() // TEMP
+    }
+
+    /// `report.md`.
+    pub fn markdown(&self) -> String {
+        String::new() // TEMP
+    }
+
+    /// `appendix.tex`: a table and a TikZ figure of the specification curve.
+    pub fn latex(&self) -> String {
+        String::new() // TEMP
+    }
+
+    /// Writes [`OUTPUT_FILES`] into `dir`. Every file is first written beside its final name
+    /// and renamed into place, so a failure never leaves a half-written file.
+    pub fn write_all(&self, dir: &Path) -> Result<(), ReportError> {
+        let contents = [
+            self.summary_json(),
+            self.html(),
+            self.markdown(),
+            self.latex(),
+        ];
+        for (name, text) in OUTPUT_FILES.iter().zip(contents) {
+            let target = dir.join(name);
+            let staging = dir.join(format!(".{name}.partial"));
+            let fail = |source| ReportError::Write {
+                path: target.display().to_string(),
+                source,
+            };
+            std::fs::write(&staging, text).map_err(fail)?;
+            std::fs::rename(&staging, &target).map_err(fail)?;
+        }
+        Ok(())
+    }
+}

@@ -1,0 +1,516 @@
+//! Aggregation over the grid: shares, quantiles, bounds, baseline rank, decision influence and
+//! diagnostics. Formulas and sources: docs/methods-report.md.
+
+use std::collections::HashMap;
+
+use crate::effect::{Effect, Scale};
+use crate::input::{ModelEntry, ModelStatus, ReportInput};
+use crate::stats::{mean, median, quantile_sorted, standard_normal_cdf, two_sided_p};
+use crate::summary::*;
+use crate::ReportError;
+
+/// Tag written as `format` in summary.json.
+pub const SUMMARY_FORMAT: &str = "specgrid-summary-v1";
+
+/// The cautions every report carries.
+pub const CAUTIONS: [&str; 3] = [
+    "A coefficient that survives many specifications is still not a causal effect.",
+    "The curve is for transparency, not for picking the most favourable model.",
+    "Follow the study's pre-registration and the norms of its field.",
+];
+
+/// Checks the input's shape, naming the first inconsistency.
+pub fn validate(input: &ReportInput) -> Result<(), ReportError> {
+    if input.error_labels.is_empty() {
+        return Err(ReportError::Input(
+            "no covariance choices: pass at least one error label".into(),
+        ));
+    }
+    if !(input.significance_level > 0.0 && input.significance_level < 1.0) {
+        return Err(ReportError::Input(format!(
+            "significance level {} is outside (0, 1)",
+            input.significance_level
+        )));
+    }
+    for m in &input.models {
+        if m.choices.len() != input.dimensions.len() {
+            return Err(ReportError::Input(format!(
+                "model {} has {} choices for {} decisions",
+                m.model_id,
+                m.choices.len(),
+                input.dimensions.len()
+            )));
+        }
+        for (c, d) in m.choices.iter().zip(&input.dimensions) {
+            if *c >= d.options.len() {
+                return Err(ReportError::Input(format!(
+                    "model {} takes option {} on `{}`, which has {} options",
+                    m.model_id,
+                    c,
+                    d.name,
+                    d.options.len()
+                )));
+            }
+        }
+        if m.effects.len() != input.error_labels.len() {
+            return Err(ReportError::Input(format!(
+                "model {} has effects for {} covariance choices, the report has {}",
+                m.model_id,
+                m.effects.len(),
+                input.error_labels.len()
+            )));
+        }
+    }
+    Ok(())
+}
+
+/// Computes every aggregate of the report.
+pub fn summarize(input: &ReportInput) -> Result<Summary, ReportError> {
+    validate(input)?;
+    let baseline_index = baseline_index(input);
+    let estimated = input
+        .models
+        .iter()
+        .filter(|m| m.effects.iter().any(Option::is_some))
+        .count();
+    let by_errors = (0..input.error_labels.len())
+        .map(|e| error_summary(input, e, baseline_index.map(|(i, _)| i)))
+        .collect();
+    Ok(Summary {
+        format: SUMMARY_FORMAT,
+        title: input.title.clone(),
+        scale: input.scale.label(),
+        effect_label: input.effect_label.clone(),
+        significance_level: input.significance_level,
+        confidence_level: input.confidence_level,
+        models: ModelCounts {
+            planned: input.models.len(),
+            estimated,
+            failed: input
+                .models
+                .iter()
+                .filter(|m| matches!(m.status, ModelStatus::Failed(_)))
+                .count(),
+        },
+        baseline: baseline_info(input, baseline_index),
+        by_errors,
+        decisions: decision_influence(input),
+        diagnostics: diagnostics(input),
+        cautions: cautions(input),
+    })
+}
+
+/// Index of the baseline model and how it was chosen: the study's named model if it has an
+/// estimate, else the model taking the first option everywhere, else the first estimated model.
+pub fn baseline_index(input: &ReportInput) -> Option<(usize, &'static str)> {
+    let has = |m: &ModelEntry| m.effects.first().is_some_and(Option::is_some);
+    if let Some(id) = &input.baseline_model_id {
+        if let Some(i) = input
+            .models
+            .iter()
+            .position(|m| &m.model_id == id && has(m))
+        {
+            return Some((i, "named by the study"));
+        }
+    }
+    if let Some(i) = input
+        .models
+        .iter()
+        .position(|m| has(m) && m.choices.iter().all(|&c| c == 0))
+    {
+        return Some((i, "first option on every decision"));
+    }
+    input
+        .models
+        .iter()
+        .position(has)
+        .map(|i| (i, "first model"))
+}
+
+fn baseline_info(input: &ReportInput, index: Option<(usize, &'static str)>) -> Baseline {
+    match index {
+        Some((i, how)) => {
+            let m = &input.models[i];
+            Baseline {
+                model_id: Some(m.model_id.clone()),
+                chosen_as: how,
+                choices: choices_of(input, m),
+            }
+        }
+        None => Baseline {
+            model_id: None,
+            chosen_as: "no model has an estimate",
+            choices: vec![],
+        },
+    }
+}
+
+/// The (dimension, option) names of a model's choices.
+pub fn choices_of(input: &ReportInput, m: &ModelEntry) -> Vec<Choice> {
+    input
+        .dimensions
+        .iter()
+        .zip(&m.choices)
+        .map(|(d, &c)| Choice {
+            dimension: d.name.clone(),
+            option: d.options[c].clone(),
+        })
+        .collect()
+}
+
+/// Whether an effect is significant at `alpha` (two-sided t test of zero); `None` without SE.
+pub fn significance(effect: &Effect, alpha: f64) -> Option<bool> {
+    let se = effect.std_error?;
+    if se > 0.0 && se.is_finite() {
+        Some(two_sided_p(effect.estimate / se, effect.df) < alpha)
+    } else {
+        None
+    }
+}
+
+fn error_summary(input: &ReportInput, e: usize, baseline: Option<usize>) -> ErrorSummary {
+    let alpha = input.significance_level;
+    // (estimate, model index), sorted by estimate then id for deterministic ties.
+    let mut sorted: Vec<(f64, usize)> = input
+        .models
+        .iter()
+        .enumerate()
+        .filter_map(|(i, m)| m.effects[e].map(|f| (f.estimate, i)))
+        .filter(|(v, _)| v.is_finite())
+        .collect();
+    sorted.sort_by(|a, b| {
+        a.0.total_cmp(&b.0)
+            .then_with(|| input.models[a.1].model_id.cmp(&input.models[b.1].model_id))
+    });
+    let n = sorted.len();
+    let values: Vec<f64> = sorted.iter().map(|p| p.0).collect();
+    let share = |k: usize| (n > 0).then(|| k as f64 / n as f64);
+    let at = |p: &(f64, usize)| ValueAt {
+        value: p.0,
+        model_id: input.models[p.1].model_id.clone(),
+    };
+
+    let base = baseline.and_then(|b| input.models[b].effects[e].map(|f| (b, f)));
+    let baseline_rank = base.and_then(|(b, _)| sorted.iter().position(|p| p.1 == b).map(|r| r + 1));
+    let base_sign = base.map(|(_, f)| sign(f.estimate));
+    let same_sign = base_sign.map(|s| values.iter().filter(|v| sign(**v) == s).count());
+
+    let effects: Vec<(Effect, usize)> = sorted
+        .iter()
+        .map(|p| {
+            (
+                input.models[p.1].effects[e].unwrap_or_else(|| unreachable_effect()),
+                p.1,
+            )
+        })
+        .collect();
+    let mut sig_pos = 0;
+    let mut sig_neg = 0;
+    let mut with_se = 0;
+    for (f, _) in &effects {
+        match significance(f, alpha) {
+            Some(true) if f.estimate > 0.0 => sig_pos += 1,
+            Some(true) => sig_neg += 1,
+            _ => {}
+        }
+        if f.std_error.is_some_and(|s| s.is_finite() && s > 0.0) {
+            with_se += 1;
+        }
+    }
+    let q1 = quantile_sorted(&values, 0.25);
+    let q3 = quantile_sorted(&values, 0.75);
+    ErrorSummary {
+        errors: input.error_labels[e].clone(),
+        models: n,
+        models_with_std_error: with_se,
+        baseline_estimate: base.map(|(_, f)| f.estimate),
+        baseline_std_error: base.and_then(|(_, f)| f.std_error),
+        baseline_rank,
+        share_baseline_sign: same_sign.and_then(share),
+        share_significant_positive: share(sig_pos),
+        share_significant_negative: share(sig_neg),
+        median: quantile_sorted(&values, 0.5),
+        quartile_1: q1,
+        quartile_3: q3,
+        interquartile_range: q1.zip(q3).map(|(a, b)| b - a),
+        min: sorted.first().map(at),
+        max: sorted.last().map(at),
+        extreme_bounds: extreme_bounds(input, &effects),
+        cdf_zero: cdf_zero(input, &effects),
+    }
+}
+
+fn unreachable_effect() -> Effect {
+    // Only indices with an effect are sorted above; this keeps the code panic-free anyway.
+    Effect::coefficient(f64::NAN, None, f64::NAN)
+}
+
+fn sign(v: f64) -> i8 {
+    if v > 0.0 {
+        1
+    } else if v < 0.0 {
+        -1
+    } else {
+        0
+    }
+}
+
+fn usable_se(f: &Effect) -> Option<f64> {
+    f.std_error.filter(|s| s.is_finite() && *s > 0.0)
+}
+
+fn extreme_bounds(input: &ReportInput, effects: &[(Effect, usize)]) -> Option<ExtremeBounds> {
+    let mut lower: Option<(f64, usize)> = None;
+    let mut upper: Option<(f64, usize)> = None;
+    for (f, i) in effects {
+        let Some(se) = usable_se(f) else { continue };
+        let (lo, hi) = (f.estimate - 2.0 * se, f.estimate + 2.0 * se);
+        if lower.is_none_or(|(v, _)| lo < v) {
+            lower = Some((lo, *i));
+        }
+        if upper.is_none_or(|(v, _)| hi > v) {
+            upper = Some((hi, *i));
+        }
+    }
+    let (lo, hi) = (lower?, upper?);
+    Some(ExtremeBounds {
+        lower: ValueAt {
+            value: lo.0,
+            model_id: input.models[lo.1].model_id.clone(),
+        },
+        upper: ValueAt {
+            value: hi.0,
+            model_id: input.models[hi.1].model_id.clone(),
+        },
+        same_sign: (lo.0 > 0.0 && hi.0 > 0.0) || (lo.0 < 0.0 && hi.0 < 0.0),
+    })
+}
+
+/// Gaussian log-likelihood at the OLS fit: −n/2 · (ln(2π·RSS/n) + 1), with RSS = s²·(n − k).
+fn log_likelihood(m: &ModelEntry) -> Option<f64> {
+    let n = m.n_obs? as f64;
+    let k = m.n_params? as f64;
+    let s = m.resid_sd?;
+    let rss = s * s * (n - k);
+    (rss > 0.0 && n > 0.0).then(|| -0.5 * n * ((2.0 * std::f64::consts::PI * rss / n).ln() + 1.0))
+}
+
+fn cdf_zero(input: &ReportInput, effects: &[(Effect, usize)]) -> Option<CdfZero> {
+    let usable: Vec<(f64, usize)> = effects
+        .iter()
+        .filter_map(|(f, i)| usable_se(f).map(|se| (standard_normal_cdf(-f.estimate / se), *i)))
+        .collect();
+    if usable.is_empty() {
+        return None;
+    }
+    let models: Vec<&ModelEntry> = usable.iter().map(|(_, i)| &input.models[*i]).collect();
+    let logl: Option<Vec<f64>> = models.iter().map(|m| log_likelihood(m)).collect();
+    let comparable = models
+        .windows(2)
+        .all(|w| w[0].outcome_label == w[1].outcome_label && w[0].n_obs == w[1].n_obs);
+    let (weights, how) = match (logl, comparable) {
+        (Some(l), true) => {
+            // Normalise in logs so huge likelihoods do not overflow.
+            let top = l.iter().cloned().fold(f64::NEG_INFINITY, f64::max);
+            let w: Vec<f64> = l.iter().map(|v| (v - top).exp()).collect();
+            (w, "likelihood".to_string())
+        }
+        (None, _) => (
+            vec![1.0; usable.len()],
+            "equal (fit statistics missing for some models)".to_string(),
+        ),
+        (Some(_), false) => (
+            vec![1.0; usable.len()],
+            "equal (models differ in outcome form or rows, so their likelihoods are not comparable)"
+                .to_string(),
+        ),
+    };
+    let total: f64 = weights.iter().sum();
+    let below = usable
+        .iter()
+        .zip(&weights)
+        .map(|((c, _), w)| c * w)
+        .sum::<f64>()
+        / total;
+    Some(CdfZero {
+        below_zero: below,
+        larger_side: below.max(1.0 - below),
+        weights: how,
+    })
+}
+
+fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
+    // Estimates do not depend on the covariance choice; take them from the first.
+    let est: Vec<Option<f64>> = input
+        .models
+        .iter()
+        .map(|m| m.effects[0].map(|f| f.estimate).filter(|v| v.is_finite()))
+        .collect();
+    let all: Vec<f64> = est.iter().flatten().copied().collect();
+    let grand = mean(&all).unwrap_or(0.0);
+    let total_ss: f64 = all.iter().map(|v| (v - grand).powi(2)).sum();
+    let by_choices: HashMap<&[usize], f64> = input
+        .models
+        .iter()
+        .zip(&est)
+        .filter_map(|(m, e)| e.map(|v| (m.choices.as_slice(), v)))
+        .collect();
+
+    let mut out: Vec<DecisionInfluence> = input
+        .dimensions
+        .iter()
+        .enumerate()
+        .map(|(d, dim)| {
+            let mut between = 0.0;
+            let options = dim
+                .options
+                .iter()
+                .enumerate()
+                .map(|(o, name)| {
+                    let members: Vec<usize> = (0..input.models.len())
+                        .filter(|&i| input.models[i].choices[d] == o && est[i].is_some())
+                        .collect();
+                    let vals: Vec<f64> = members.iter().filter_map(|&i| est[i]).collect();
+                    if let Some(mu) = mean(&vals) {
+                        between += vals.len() as f64 * (mu - grand).powi(2);
+                    }
+                    let mut shifts = Vec::new();
+                    if o > 0 {
+                        for &i in &members {
+                            let mut twin = input.models[i].choices.clone();
+                            twin[d] = 0;
+                            if let (Some(v), Some(t)) = (est[i], by_choices.get(twin.as_slice())) {
+                                shifts.push(v - t);
+                            }
+                        }
+                    }
+                    OptionInfluence {
+                        option: name.clone(),
+                        models: vals.len(),
+                        mean: mean(&vals),
+                        median: median(&vals),
+                        share_significant: (0..input.error_labels.len())
+                            .map(|e| {
+                                let n = members.len();
+                                let k = members
+                                    .iter()
+                                    .filter(|&&i| {
+                                        input.models[i].effects[e].is_some_and(|f| {
+                                            significance(&f, input.significance_level) == Some(true)
+                                        })
+                                    })
+                                    .count();
+                                (n > 0).then(|| k as f64 / n as f64)
+                            })
+                            .collect(),
+                        shift_vs_reference: mean(&shifts),
+                        shift_pairs: shifts.len(),
+                    }
+                })
+                .collect();
+            DecisionInfluence {
+                dimension: dim.name.clone(),
+                variance_share: if total_ss > 0.0 {
+                    between / total_ss
+                } else {
+                    0.0
+                },
+                rank: 0,
+                options,
+            }
+        })
+        .collect();
+    let mut order: Vec<usize> = (0..out.len()).collect();
+    order.sort_by(|&a, &b| {
+        out[b]
+            .variance_share
+            .total_cmp(&out[a].variance_share)
+            .then(a.cmp(&b))
+    });
+    let mut ranked = Vec::with_capacity(out.len());
+    for (r, &i) in order.iter().enumerate() {
+        out[i].rank = r + 1;
+    }
+    for i in order {
+        ranked.push(out[i].clone());
+    }
+    ranked
+}
+
+fn diagnostics(input: &ReportInput) -> Diagnostics {
+    let tested: Vec<f64> = input
+        .models
+        .iter()
+        .filter(|m| m.effects.iter().any(Option::is_some))
+        .filter_map(|m| m.het_p_value)
+        .collect();
+    let rejecting = tested
+        .iter()
+        .filter(|p| **p < input.significance_level)
+        .count();
+    let classical = input.error_labels.iter().position(|l| l == "classical");
+    let se_ratios = match classical {
+        None => vec![],
+        Some(c) => (0..input.error_labels.len())
+            .filter(|&e| e != c)
+            .map(|e| {
+                let mut ratios: Vec<f64> = input
+                    .models
+                    .iter()
+                    .filter_map(|m| {
+                        let robust = usable_se(&m.effects[e]?)?;
+                        let plain = usable_se(&m.effects[c]?)?;
+                        Some(robust / plain)
+                    })
+                    .collect();
+                ratios.sort_by(f64::total_cmp);
+                SeRatio {
+                    errors: input.error_labels[e].clone(),
+                    models: ratios.len(),
+                    median: quantile_sorted(&ratios, 0.5),
+                    min: ratios.first().copied(),
+                    max: ratios.last().copied(),
+                }
+            })
+            .collect(),
+    };
+    Diagnostics {
+        het_tested_models: tested.len(),
+        het_share_rejecting: (!tested.is_empty()).then(|| rejecting as f64 / tested.len() as f64),
+        se_ratios,
+    }
+}
+
+fn cautions(input: &ReportInput) -> Vec<String> {
+    let mut out: Vec<String> = CAUTIONS.iter().map(|s| s.to_string()).collect();
+    if input.scale == Scale::Coefficient {
+        let mixed = ["outcome", "focus"].iter().any(|name| {
+            input
+                .dimensions
+                .iter()
+                .find(|d| d.name == *name)
+                .is_some_and(|d| d.options.len() > 1)
+        });
+        if mixed {
+            out.push("These are raw coefficients of models with different outcome or focus forms; they are not on one scale. Choose a common scale (elasticity, semi-elasticity or marginal effect) before comparing them.".into());
+        }
+    }
+    let failed = input
+        .models
+        .iter()
+        .filter(|m| matches!(m.status, ModelStatus::Failed(_)))
+        .count();
+    if failed > 0 {
+        out.push(format!(
+            "{failed} model(s) failed and are left out of every figure; see `status` and `message` in models.csv."
+        ));
+    }
+    let no_se = input
+        .models
+        .iter()
+        .any(|m| m.effects.iter().flatten().any(|f| f.std_error.is_none()));
+    if no_se {
+        out.push("Some effects have no delta-method standard error (the covariance between their coefficients is unavailable); they count as not significant and are left out of the bounds.".into());
+    }
+    out
+}

@@ -1,0 +1,81 @@
+//! What the report is built from: the grid's decisions and, per model, the tracked effect under
+//! every covariance choice. The binary fills these from the engine's fits (with effect
+//! conversions) or, when re-rendering a results folder, from the rows of `models.csv`
+//! (see [`crate::rows`]).
+
+use crate::effect::{Effect, Scale};
+
+/// One decision dimension of the grid.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DimensionInfo {
+    /// Dimension name as in the results (`outcome`, `focus`, a control block's name, `sample`).
+    pub name: String,
+    /// Option names in study order; the first is the reference for influence comparisons.
+    pub options: Vec<String>,
+}
+
+/// Whether a model produced numbers.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ModelStatus {
+    /// Estimated.
+    Ok,
+    /// Not estimated; the message says why.
+    Failed(String),
+}
+
+/// One model of the grid as the report sees it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ModelEntry {
+    /// Stable model id.
+    pub model_id: String,
+    /// Option index per dimension, parallel to [`ReportInput::dimensions`].
+    pub choices: Vec<usize>,
+    /// Estimated or failed.
+    pub status: ModelStatus,
+    /// The tracked effect under each covariance choice, parallel to
+    /// [`ReportInput::error_labels`]; `None` where there is no number.
+    pub effects: Vec<Option<Effect>>,
+    /// Rows used.
+    pub n_obs: Option<u64>,
+    /// Coefficients estimated.
+    pub n_params: Option<u64>,
+    /// R² of the fit.
+    pub r_squared: Option<f64>,
+    /// Residual standard deviation, √(RSS / (n − k)).
+    pub resid_sd: Option<f64>,
+    /// p-value of the studentized Breusch–Pagan test, when the engine computed it.
+    pub het_p_value: Option<f64>,
+    /// Label of the outcome form (e.g. `log(yield_t_ha)`); used to decide whether likelihoods
+    /// of different models are comparable.
+    pub outcome_label: String,
+}
+
+/// Everything the aggregates and renderers need.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ReportInput {
+    /// Study title.
+    pub title: String,
+    /// Scale the effects are expressed on.
+    pub scale: Scale,
+    /// Short description of the tracked effect, e.g. `visits` or `log1p(visits)`.
+    pub effect_label: String,
+    /// Decision dimensions in grid order.
+    pub dimensions: Vec<DimensionInfo>,
+    /// Covariance choice labels (`classical`, `hc1`, `cluster:village`, …); the first one is
+    /// the one drawn in the specification curve.
+    pub error_labels: Vec<String>,
+    /// Significance level for the shares, e.g. 0.05.
+    pub significance_level: f64,
+    /// Confidence level of the bands drawn in the curve, e.g. 0.95.
+    pub confidence_level: f64,
+    /// Baseline model chosen by the study, if it named one.
+    pub baseline_model_id: Option<String>,
+    /// Every planned model, failed ones included.
+    pub models: Vec<ModelEntry>,
+    /// Text of the study file, shown verbatim in the HTML report.
+    pub study_text: String,
+    /// Data fingerprint (e.g. the SHA-256 of the data file).
+    pub data_fingerprint: String,
+    /// (fitted, residual) pairs of the baseline model, for the residual scatter.
+    pub baseline_residuals: Option<Vec<(f64, f64)>>,
+}

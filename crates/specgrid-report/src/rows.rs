@@ -1,0 +1,195 @@
+//! Building a [`ReportInput`] from the rows of `models.csv`, so a results folder can be
+//! re-rendered without re-estimating. Effects are then raw coefficients (scale `coefficient`)
+//! of each model's first tracked term.
+
+use std::collections::HashMap;
+
+use crate::effect::{Effect, Scale};
+use crate::input::{DimensionInfo, ModelEntry, ModelStatus, ReportInput};
+use crate::ReportError;
+
+/// One row of `models.csv` (one model × covariance choice × tracked term), as plain values.
+/// Empty cells are `None` / empty strings.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct ResultRow {
+    /// `model_id`.
+    pub model_id: String,
+    /// The option names of the dimension columns, in the order of the dimensions passed to
+    /// [`ReportInput::from_rows`].
+    pub choices: Vec<String>,
+    /// `errors`.
+    pub errors: String,
+    /// `term`.
+    pub term: String,
+    /// `estimate`.
+    pub estimate: Option<f64>,
+    /// `std_error`.
+    pub std_error: Option<f64>,
+    /// `df`.
+    pub df: Option<f64>,
+    /// `n_obs`.
+    pub n_obs: Option<u64>,
+    /// `n_params`.
+    pub n_params: Option<u64>,
+    /// `r_squared`.
+    pub r_squared: Option<f64>,
+    /// `resid_sd`.
+    pub resid_sd: Option<f64>,
+    /// `het_test_p_value`.
+    pub het_test_p_value: Option<f64>,
+    /// `outcome`.
+    pub outcome: String,
+    /// `status` (`ok` or `failed`).
+    pub status: String,
+    /// `message`.
+    pub message: String,
+}
+
+/// The parts of a report that `models.csv` does not hold.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ReportHeader {
+    /// Study title.
+    pub title: String,
+    /// Significance level.
+    pub significance_level: f64,
+    /// Confidence level.
+    pub confidence_level: f64,
+    /// Baseline named by the study, if any.
+    pub baseline_model_id: Option<String>,
+    /// Text of the study file.
+    pub study_text: String,
+    /// Data fingerprint.
+    pub data_fingerprint: String,
+}
+
+/// Decisions with their options in order of first appearance in the rows (the run writes
+/// models in grid order, so this is the study's option order whenever the grid is complete).
+pub fn dimensions_from_rows(names: &[String], rows: &[ResultRow]) -> Vec<DimensionInfo> {
+    names
+        .iter()
+        .enumerate()
+        .map(|(d, name)| {
+            let mut options: Vec<String> = Vec::new();
+            for r in rows {
+                if let Some(o) = r.choices.get(d) {
+                    if !options.contains(o) {
+                        options.push(o.clone());
+                    }
+                }
+            }
+            DimensionInfo {
+                name: name.clone(),
+                options,
+            }
+        })
+        .collect()
+}
+
+impl ReportInput {
+    /// Builds a coefficient-scale report input from `models.csv` rows. Each model's effect is
+    /// its first tracked term (the first `term` listed for it: the run writes focus terms
+    /// first); covariance choices are taken in order of first appearance.
+    pub fn from_rows(
+        header: ReportHeader,
+        dimensions: Vec<DimensionInfo>,
+        rows: &[ResultRow],
+    ) -> Result<ReportInput, ReportError> {
+        let mut error_labels: Vec<String> = Vec::new();
+        for r in rows {
+            if !error_labels.contains(&r.errors) {
+                error_labels.push(r.errors.clone());
+            }
+        }
+        let mut models: Vec<ModelEntry> = Vec::new();
+        let mut index: HashMap<&str, usize> = HashMap::new();
+        let mut lead_term: Vec<String> = Vec::new();
+        for (n, r) in rows.iter().enumerate() {
+            let row = n + 1;
+            let bad = |message: String| ReportError::Row { row, message };
+            let i = match index.get(r.model_id.as_str()) {
+                Some(&i) => i,
+                None => {
+                    if r.choices.len() != dimensions.len() {
+                        return Err(bad(format!(
+                            "{} decision columns, expected {}",
+                            r.choices.len(),
+                            dimensions.len()
+                        )));
+                    }
+                    let choices = r
+                        .choices
+                        .iter()
+                        .zip(&dimensions)
+                        .map(|(o, d)| {
+                            d.options.iter().position(|x| x == o).ok_or_else(|| {
+                                bad(format!(
+                                    "option `{o}` is not one of the options of `{}`; re-render with the study the results came from",
+                                    d.name
+                                ))
+                            })
+                        })
+                        .collect::<Result<Vec<usize>, _>>()?;
+                    let status = if r.status == "ok" {
+                        ModelStatus::Ok
+                    } else {
+                        ModelStatus::Failed(r.message.clone())
+                    };
+                    models.push(ModelEntry {
+                        model_id: r.model_id.clone(),
+                        choices,
+                        status,
+                        effects: vec![None; error_labels.len()],
+                        n_obs: r.n_obs,
+                        n_params: r.n_params,
+                        r_squared: r.r_squared,
+                        resid_sd: r.resid_sd,
+                        het_p_value: r.het_test_p_value,
+                        outcome_label: r.outcome.clone(),
+                    });
+                    lead_term.push(r.term.clone());
+                    index.insert(&r.model_id, models.len() - 1);
+                    models.len() - 1
+                }
+            };
+            if r.status != "ok" || r.term != lead_term[i] {
+                continue;
+            }
+            let e = error_labels
+                .iter()
+                .position(|l| *l == r.errors)
+                .unwrap_or(0);
+            let estimate = r.estimate.ok_or_else(|| {
+                bad(
+                    "status is `ok` but `estimate` is empty; the file is damaged, re-run the study"
+                        .into(),
+                )
+            })?;
+            models[i].effects[e] = Some(Effect::coefficient(
+                estimate,
+                r.std_error,
+                r.df.unwrap_or(f64::INFINITY),
+            ));
+        }
+        let mut terms: Vec<&String> = lead_term.iter().collect();
+        terms.sort();
+        terms.dedup();
+        let effect_label = match terms.as_slice() {
+            [one] => (*one).clone(),
+            _ => "the first focus term".to_string(),
+        };
+        Ok(ReportInput {
+            title: header.title,
+            scale: Scale::Coefficient,
+            effect_label,
+            dimensions,
+            error_labels,
+            significance_level: header.significance_level,
+            confidence_level: header.confidence_level,
+            baseline_model_id: header.baseline_model_id,
+            models,
+            study_text: header.study_text,
+            data_fingerprint: header.data_fingerprint,
+            baseline_residuals: None,
+        })
+    }
+}

@@ -1,0 +1,51 @@
+//! Small order statistics and distribution helpers shared by the aggregates.
+
+use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
+
+/// Quantile `q` in [0, 1] of already sorted values by linear interpolation between order
+/// statistics (definition 7 of Hyndman & Fan 1996, The American Statistician 50:361; also
+/// numpy's default). `None` for an empty slice.
+pub fn quantile_sorted(sorted: &[f64], q: f64) -> Option<f64> {
+    if sorted.is_empty() {
+        return None;
+    }
+    let h = (sorted.len() - 1) as f64 * q.clamp(0.0, 1.0);
+    let lo = h.floor() as usize;
+    let hi = h.ceil() as usize;
+    Some(sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo]))
+}
+
+/// Median of unsorted values (sorts a copy).
+pub fn median(values: &[f64]) -> Option<f64> {
+    let mut v = values.to_vec();
+    v.sort_by(f64::total_cmp);
+    quantile_sorted(&v, 0.5)
+}
+
+/// Arithmetic mean; `None` when empty.
+pub fn mean(values: &[f64]) -> Option<f64> {
+    if values.is_empty() {
+        None
+    } else {
+        Some(values.iter().sum::<f64>() / values.len() as f64)
+    }
+}
+
+/// Two-sided p-value of `t` against Student's t with `df` degrees of freedom; the standard
+/// normal when `df` is not a finite positive number.
+pub fn two_sided_p(t: f64, df: f64) -> f64 {
+    let upper = if df.is_finite() && df > 0.0 {
+        match StudentsT::new(0.0, 1.0, df) {
+            Ok(dist) => dist.sf(t.abs()),
+            Err(_) => standard_normal_cdf(-t.abs()),
+        }
+    } else {
+        standard_normal_cdf(-t.abs())
+    };
+    (2.0 * upper).min(1.0)
+}
+
+/// Φ(x), the standard normal distribution function.
+pub fn standard_normal_cdf(x: f64) -> f64 {
+    Normal::standard().cdf(x)
+}
