@@ -130,7 +130,7 @@ def fit_model(x, y, clusters, model):
             covs.append(inference_block(res, "cluster", dims, float(g - 1)))
         else:
             # An n x 2 groups array gives Cameron-Gelbach-Miller two-way: V_A + V_B - V_AB,
-            # each term with its own CR1 factor (see /work/shared/design/engine-notes.md).
+            # each term with its own CR1 factor (checked by textbook_se above).
             groups = np.column_stack([clusters[d]["codes"] for d in dims])
             g = min(len(np.unique(groups[:, 0])), len(np.unique(groups[:, 1])))
             res = ols.fit(cov_type="cluster", cov_kwds={"groups": groups}, use_t=True)
@@ -168,7 +168,7 @@ def fit_model(x, y, clusters, model):
 
 
 def heteroskedastic():
-    """n = 500, five regressors + constant, noise sd grows with x1; three models, two outcomes."""
+    """n = 500, five regressors + constant, noise sd grows with x1; four models, two outcomes."""
     seed = 20261201
     rng = np.random.default_rng(seed)
     n = 500
