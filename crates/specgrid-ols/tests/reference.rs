@@ -417,3 +417,39 @@ fn tracking_the_dropped_indicator_is_refused() {
 fn indicators_spanning_the_constant_match_statsmodels() {
     check_case("indicators_span_constant");
 }
+
+/// Several hundred models in one `fit_many` call (more than one internal batch, spread over
+/// threads): every result must still be the statsmodels one for its model, in input order.
+fn check_many_copies(case: &str, copies: usize) {
+    let f = load(case);
+    let opts = options(&f);
+    let design = design(&f);
+    let factor = SharedFactor::new(&design).expect("design accepted");
+    // Interleaved, so neighbouring requests differ: m0, m1, …, m0, m1, …
+    let specs: Vec<ModelSpec> = (0..copies)
+        .flat_map(|_| f.models.iter().map(spec))
+        .collect();
+    let fits = factor.fit_many(&specs, &opts);
+    assert_eq!(fits.len(), specs.len(), "{case}: one result per model");
+    let mut c = Checker::default();
+    for (i, fit) in fits.iter().enumerate() {
+        let m = &f.models[i % f.models.len()];
+        match fit {
+            Ok(fit) => check_model(&mut c, &f, &opts, m, fit),
+            Err(e) => c
+                .failures
+                .push(format!("{case} / {} copy {i}: {e}", m.label)),
+        }
+    }
+    assert!(c.failures.is_empty(), "{}", c.failures.join("\n"));
+}
+
+#[test]
+fn hundreds_of_heteroskedastic_models_in_one_call_match_statsmodels() {
+    check_many_copies("heteroskedastic", 100);
+}
+
+#[test]
+fn hundreds_of_two_way_clustered_models_in_one_call_match_statsmodels() {
+    check_many_copies("two_way_panel", 150);
+}
