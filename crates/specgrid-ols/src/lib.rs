@@ -1,3 +1,17 @@
-//! Shared-factorisation OLS engine. See docs/methods.md.
+//! Shared-factorisation OLS engine: many related least-squares models on one union design,
+//! from one Householder QR. See docs/methods.md for the algebra and its sources.
 pub mod api;
+mod finish;
+mod independent;
+mod model_core;
+mod plan;
+mod refine;
+mod row_pass;
+mod shared;
+mod small_qr;
+mod student;
+mod validate;
+
 pub use api::*;
+pub use independent::fit_independent;
+pub use shared::SharedFactor;

@@ -1,0 +1,252 @@
+//! Turns a model's core results and its residual-pass sums into a [`ModelFit`]: small-sample
+//! factors, the two-way combination and its eigenvalue repair, inference and the
+//! Breusch–Pagan statistic. Both the shared and the independent route end here.
+
+use faer::{Mat, Side};
+use statrs::distribution::{ChiSquared, ContinuousCDF};
+
+use crate::api::{
+    BreuschPagan, Coefficient, Covariance, FitOptions, Inference, ModelError, ModelFit,
+};
+use crate::model_core::CoreFit;
+use crate::plan::{CovGroups, Plan};
+use crate::student::{two_sided_p, TQuantiles};
+
+/// Sums over rows of squared residuals for Koenker's Breusch–Pagan auxiliary regression.
+#[derive(Debug, Clone, Default)]
+pub(crate) struct BpSums {
+    /// Σ uᵢ with uᵢ = eᵢ².
+    pub sum_u: f64,
+    /// Σ uᵢ².
+    pub sum_u2: f64,
+    /// X_S'u in data units, kept order.
+    pub xtu: Vec<f64>,
+    /// X_S'1 (column sums), kept order.
+    pub xt1: Vec<f64>,
+}
+
+/// Residual-pass results for one model. `w` columns cover the kept positions `wpos`
+/// (the reported ones, or all when two-way errors are requested); wᵢ = (row q of (X'X)⁻¹)·xᵢ.
+#[derive(Debug, Clone, Default)]
+pub(crate) struct Meats {
+    /// Kept positions covered by the w columns.
+    pub wpos: Vec<usize>,
+    /// Σ w²e² per w column (empty if not requested).
+    pub hc0: Vec<f64>,
+    /// Σ w²e²/(1 − h) per w column.
+    pub hc2: Vec<f64>,
+    /// Σ w²e²/(1 − h)² per w column.
+    pub hc3: Vec<f64>,
+    /// Per plan grouping: Σ_g s_g s_g' over the w columns (nw × nw, column-major), s_g = Σ_{i∈g} wᵢeᵢ.
+    pub group_outer: Vec<Vec<f64>>,
+    /// First row whose leverage is 1 (HC2/HC3 undefined there).
+    pub unit_leverage_row: Option<usize>,
+    /// Breusch–Pagan sums.
+    pub bp: Option<BpSums>,
+}
+
+/// Leverage closer to 1 than this makes HC2/HC3 undefined (common practice: a row fitted exactly
+/// by its own indicator).
+pub(crate) const UNIT_LEVERAGE_GAP: f64 = 1e-10;
+
+/// Assembles the model's result.
+pub(crate) fn finish(
+    core: &CoreFit,
+    meats: &Meats,
+    plan: &Plan,
+    opts: &FitOptions,
+    tq: &mut TQuantiles,
+) -> Result<ModelFit, ModelError> {
+    let (n, k) = (core.n, core.k());
+    let df_resid = n - k;
+    let nf = n as f64;
+    let resid_factor = (nf - 1.0) / df_resid as f64;
+    let mut two_way: Vec<Option<Mat<f64>>> = vec![None; opts.covariances.len()];
+    let mut coefficients: Vec<Coefficient> = core
+        .reported
+        .iter()
+        .map(|&q| Coefficient {
+            column: core.kept[q],
+            estimate: core.coef[q],
+            inference: Vec::with_capacity(opts.covariances.len()),
+        })
+        .collect();
+    for (ci, (cov, groups)) in opts.covariances.iter().zip(&plan.cov_groups).enumerate() {
+        if matches!(cov, Covariance::Hc2 | Covariance::Hc3) {
+            if let Some(row) = meats.unit_leverage_row {
+                return Err(ModelError::InvalidRequest(format!(
+                    "HC2/HC3 errors are undefined for this model: row {row} has leverage 1 (it is fitted exactly, e.g. by its own indicator); use HC1 or a cluster-robust choice"
+                )));
+            }
+        }
+        if let CovGroups::Two(a, b, ab) = *groups {
+            let nw = meats.wpos.len();
+            let mut v = Mat::<f64>::zeros(nw, nw);
+            for (g, sign) in [(a, 1.0), (b, 1.0), (ab, -1.0)] {
+                let occ = check_clusters(plan, g)?;
+                let f = sign * occ / (occ - 1.0) * resid_factor;
+                let outer = &meats.group_outer[g];
+                for j in 0..nw {
+                    for i in 0..nw {
+                        v[(i, j)] += f * outer[i + j * nw];
+                    }
+                }
+            }
+            two_way[ci] = Some(repair_psd(v)?);
+        }
+    }
+    for (coef, &q) in coefficients.iter_mut().zip(&core.reported) {
+        let wi = meats.wpos.iter().position(|&w| w == q);
+        for (ci, (cov, groups)) in opts.covariances.iter().zip(&plan.cov_groups).enumerate() {
+            let w = || wi.expect("reported coefficient has a w column");
+            let hc_df = df_resid as f64;
+            let (var, df) = match (*cov, *groups) {
+                (Covariance::Classical, _) => (core.classical_var(q), hc_df),
+                (Covariance::Hc0, _) => (meats.hc0[w()], hc_df),
+                (Covariance::Hc1, _) => (meats.hc0[w()] * nf / hc_df, hc_df),
+                (Covariance::Hc2, _) => (meats.hc2[w()], hc_df),
+                (Covariance::Hc3, _) => (meats.hc3[w()], hc_df),
+                (Covariance::Cluster { .. }, CovGroups::One(g)) => {
+                    let occ = check_clusters(plan, g)?;
+                    let nw = meats.wpos.len();
+                    let meat = meats.group_outer[g][w() + w() * nw];
+                    (occ / (occ - 1.0) * resid_factor * meat, occ - 1.0)
+                }
+                (Covariance::TwoWayCluster { .. }, CovGroups::Two(a, b, _)) => {
+                    let v = two_way[ci].as_ref().expect("built above");
+                    let g = plan.groupings[a].occupied.min(plan.groupings[b].occupied);
+                    (v[(w(), w())], g as f64 - 1.0)
+                }
+                _ => unreachable!("plan and covariances are built together"),
+            };
+            coef.inference
+                .push(inference(*cov, coef.estimate, var, df, tq));
+        }
+    }
+    let (r_squared, adj_r_squared) = r_squared(core);
+    Ok(ModelFit {
+        n_obs: n,
+        n_params: k,
+        df_resid,
+        resid_sd: core.sigma2().sqrt(),
+        r_squared,
+        adj_r_squared,
+        condition_number: core.condition,
+        dropped: core.dropped.clone(),
+        all_estimates: core
+            .kept
+            .iter()
+            .copied()
+            .zip(core.coef.iter().copied())
+            .collect(),
+        coefficients,
+        breusch_pagan: meats.bp.as_ref().and_then(|bp| breusch_pagan(core, bp)),
+    })
+}
+
+fn check_clusters(plan: &Plan, g: usize) -> Result<f64, ModelError> {
+    let grouping = &plan.groupings[g];
+    if grouping.occupied < 2 {
+        return Err(ModelError::TooFewClusters {
+            name: grouping.name.clone(),
+            count: grouping.occupied,
+        });
+    }
+    Ok(grouping.occupied as f64)
+}
+
+fn inference(cov: Covariance, estimate: f64, var: f64, df: f64, tq: &mut TQuantiles) -> Inference {
+    let std_error = var.max(0.0).sqrt();
+    let t_stat = estimate / std_error;
+    let q = tq.quantile(df);
+    Inference {
+        covariance: cov,
+        std_error,
+        t_stat,
+        df,
+        p_value: two_sided_p(t_stat, df),
+        ci_low: estimate - q * std_error,
+        ci_high: estimate + q * std_error,
+    }
+}
+
+/// Two-way V can be indefinite; following Cameron, Gelbach & Miller (2011, sec. 2.3) negative
+/// eigenvalues are set to zero and V is rebuilt, V⁺ = U·max(Λ, 0)·U'.
+fn repair_psd(v: Mat<f64>) -> Result<Mat<f64>, ModelError> {
+    let eig = v.self_adjoint_eigen(Side::Lower).map_err(|e| {
+        ModelError::InvalidRequest(format!(
+            "two-way covariance eigen-decomposition failed ({e:?})"
+        ))
+    })?;
+    let s = eig.S().column_vector();
+    if (0..s.nrows()).all(|i| s[i] >= 0.0) {
+        return Ok(v);
+    }
+    let u = eig.U();
+    let nw = v.nrows();
+    let mut out = Mat::<f64>::zeros(nw, nw);
+    for l in 0..nw {
+        let lam = s[l].max(0.0);
+        if lam == 0.0 {
+            continue;
+        }
+        for j in 0..nw {
+            for i in 0..nw {
+                out[(i, j)] += lam * u[(i, l)] * u[(j, l)];
+            }
+        }
+    }
+    Ok(out)
+}
+
+fn r_squared(core: &CoreFit) -> (f64, f64) {
+    let tss = core.tss;
+    let (total, c) = if core.has_constant {
+        (tss.centred, 1.0)
+    } else {
+        (tss.uncentred, 0.0)
+    };
+    let r2 = if total > 0.0 {
+        1.0 - core.rss / total
+    } else {
+        f64::NAN
+    };
+    let (n, k) = (core.n as f64, core.k() as f64);
+    (r2, 1.0 - (1.0 - r2) * (n - c) / (n - k))
+}
+
+/// Koenker (1981) studentized Breusch–Pagan: LM = n·R² of u = e² on the model's columns,
+/// df = k − 1 (the constant, explicit or spanned, carries no slope). Needs a constant.
+/// df = k − 1 (the constant, explicit or spanned, carries no slope). Needs a constant.
+fn breusch_pagan(core: &CoreFit, bp: &BpSums) -> Option<BreuschPagan> {
+    if !core.has_constant || core.k() < 2 || core.rss <= 0.0 {
+        return None;
+    }
+    let (n, k) = (core.n as f64, core.k());
+    let mean = bp.sum_u / n;
+    let tss = bp.sum_u2 - n * mean * mean;
+    if tss.is_nan() || tss <= 0.0 {
+        return None;
+    }
+    // Q_S'(u − ū1) = R⁻ᵀ D⁻¹ X_S'(u − ū1); its squared norm is the explained sum of squares
+    // (the constant lies in the column space, so centring commutes with the projection).
+    let z: Vec<f64> = (0..k)
+        .map(|q| (bp.xtu[q] - mean * bp.xt1[q]) / core.scales[q])
+        .collect();
+    let ess: f64 = (0..k)
+        .map(|c| {
+            let v: f64 = (0..=c).map(|q| core.rinv[q + c * k] * z[q]).sum();
+            v * v
+        })
+        .sum();
+    let statistic = n * (ess / tss).clamp(0.0, 1.0);
+    let df = (core.k() - 1) as f64;
+    let p_value = ChiSquared::new(df)
+        .map(|d| d.sf(statistic))
+        .unwrap_or(f64::NAN);
+    Some(BreuschPagan {
+        statistic,
+        df,
+        p_value,
+    })
+}

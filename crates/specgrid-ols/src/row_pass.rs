@@ -1,0 +1,244 @@
+//! The batched pass over rows that residual-based covariances and the Breusch–Pagan test need.
+//!
+//! For a batch of models, coefficient vectors, rows of (X'X)⁻¹ and columns of D⁻¹R⁻¹ are
+//! scattered into p-row matrices, so that per block of rows the residuals E = Y − X·B, the
+//! influence weights W = X·A, the leverage factors X·L and X'(E∘E) are each one matrix product
+//! (faer, sequential inside a batch). Blocks are visited in a fixed order, so the sums do not
+//! depend on how many threads run batches.
+
+use faer::linalg::matmul::matmul;
+use faer::reborrow::{Reborrow, ReborrowMut};
+use faer::{Accum, Mat, MatRef, Par};
+
+use crate::finish::{BpSums, Meats, UNIT_LEVERAGE_GAP};
+use crate::model_core::CoreFit;
+use crate::plan::Plan;
+
+/// Rows per block: keeps the block's E, W and leverage matrices in cache for typical batches.
+const ROW_BLOCK: usize = 512;
+
+/// Runs the pass for `cores` (all on the same design) and returns one [`Meats`] per core.
+/// `x_colsum` are the union column sums (for the Breusch–Pagan centring).
+pub(crate) fn row_pass(
+    x: MatRef<'_, f64>,
+    y: MatRef<'_, f64>,
+    x_colsum: &[f64],
+    cores: &[&CoreFit],
+    plan: &Plan,
+) -> Vec<Meats> {
+    let (n, p) = (x.nrows(), x.ncols());
+    let nb_models = cores.len();
+    let mut meats: Vec<Meats> = cores.iter().map(|c| empty_meats(c, plan)).collect();
+    if nb_models == 0 {
+        return meats;
+    }
+    // Scatter the per-model vectors into p-row matrices.
+    let mut neg_b = Mat::<f64>::zeros(p, nb_models);
+    for (t, core) in cores.iter().enumerate() {
+        for (q, &c) in core.kept.iter().enumerate() {
+            neg_b[(c, t)] = -core.coef[q];
+        }
+    }
+    // w columns: (model, kept position); A holds the matching rows of (X'X)⁻¹.
+    let w_cols: Vec<(usize, usize)> = meats
+        .iter()
+        .enumerate()
+        .flat_map(|(t, m)| m.wpos.iter().map(move |&q| (t, q)))
+        .collect();
+    let nw = w_cols.len();
+    let mut a = Mat::<f64>::zeros(p, nw);
+    let mut row = vec![0.0; cores.iter().map(|c| c.k()).max().unwrap_or(0)];
+    for (col, &(t, q)) in w_cols.iter().enumerate() {
+        let core = cores[t];
+        core.xtx_inv_row(q, &mut row);
+        for (l, &c) in core.kept.iter().enumerate() {
+            a[(c, col)] = row[l];
+        }
+    }
+    // Leverage: hᵢ = ‖xᵢ'D⁻¹R⁻¹‖² over each model's own columns.
+    let lev_start: Vec<usize> = cores
+        .iter()
+        .scan(0, |s, c| {
+            let start = *s;
+            *s += if plan.need_leverage() { c.k() } else { 0 };
+            Some(start)
+        })
+        .collect();
+    let nl = if plan.need_leverage() {
+        cores.iter().map(|c| c.k()).sum()
+    } else {
+        0
+    };
+    let mut lmat = Mat::<f64>::zeros(p, nl);
+    if nl > 0 {
+        for (t, core) in cores.iter().enumerate() {
+            let k = core.k();
+            for c in 0..k {
+                for (l, &u) in core.kept.iter().enumerate().take(c + 1) {
+                    lmat[(u, lev_start[t] + c)] = core.rinv[l + c * k] / core.scales[l];
+                }
+            }
+        }
+    }
+    let mut cluster_sums: Vec<Vec<f64>> = plan
+        .groupings
+        .iter()
+        .map(|g| vec![0.0; g.range * nw])
+        .collect();
+    let mut xtu = Mat::<f64>::zeros(p, nb_models);
+    let mut sum_u = vec![0.0; nb_models];
+    let mut sum_u2 = vec![0.0; nb_models];
+    let block = ROW_BLOCK.min(n);
+    let mut e = Mat::<f64>::zeros(block, nb_models);
+    let mut u = Mat::<f64>::zeros(block, nb_models);
+    let mut w = Mat::<f64>::zeros(block, nw);
+    let mut lev = Mat::<f64>::zeros(block, nl);
+    let mut h = vec![0.0; block];
+    let mut hc_acc = vec![[0.0f64; 3]; nw];
+
+    let mut r0 = 0;
+    while r0 < n {
+        let nr = block.min(n - r0);
+        let xb = x.subrows(r0, nr);
+        let mut eb = e.as_mut().subrows_mut(0, nr);
+        for (t, core) in cores.iter().enumerate() {
+            eb.rb_mut()
+                .col_mut(t)
+                .copy_from(y.col(core.outcome).subrows(r0, nr));
+        }
+        matmul(eb.rb_mut(), Accum::Add, xb, neg_b.as_ref(), 1.0, Par::Seq);
+        let mut ub = u.as_mut().subrows_mut(0, nr);
+        for t in 0..nb_models {
+            let (ec, mut uc) = (eb.rb().col(t), ub.rb_mut().col_mut(t));
+            let (mut s1, mut s2) = (0.0, 0.0);
+            for i in 0..nr {
+                let ui = ec[i] * ec[i];
+                uc[i] = ui;
+                s1 += ui;
+                s2 += ui * ui;
+            }
+            sum_u[t] += s1;
+            sum_u2[t] += s2;
+        }
+        matmul(
+            xtu.as_mut(),
+            Accum::Add,
+            xb.transpose(),
+            ub.rb(),
+            1.0,
+            Par::Seq,
+        );
+        if nw > 0 {
+            let mut wb = w.as_mut().subrows_mut(0, nr);
+            matmul(wb.rb_mut(), Accum::Replace, xb, a.as_ref(), 1.0, Par::Seq);
+            if nl > 0 {
+                let mut lb = lev.as_mut().subrows_mut(0, nr);
+                matmul(
+                    lb.rb_mut(),
+                    Accum::Replace,
+                    xb,
+                    lmat.as_ref(),
+                    1.0,
+                    Par::Seq,
+                );
+            }
+            let mut last_model = usize::MAX;
+            for (col, &(t, _)) in w_cols.iter().enumerate() {
+                let core = cores[t];
+                if nl > 0 && t != last_model {
+                    // Leverages of model t for this block.
+                    for (i, hi) in h[..nr].iter_mut().enumerate() {
+                        *hi = (0..core.k())
+                            .map(|c| lev[(i, lev_start[t] + c)].powi(2))
+                            .sum();
+                        if 1.0 - *hi <= UNIT_LEVERAGE_GAP && meats[t].unit_leverage_row.is_none() {
+                            meats[t].unit_leverage_row = Some(r0 + i);
+                        }
+                    }
+                }
+                last_model = t;
+                let (wc, ec) = (w.col(col), e.col(t));
+                let acc = &mut hc_acc[col];
+                for i in 0..nr {
+                    let we = wc[i] * ec[i];
+                    let we2 = we * we;
+                    acc[0] += we2;
+                    if nl > 0 {
+                        let gap = 1.0 - h[i];
+                        if gap > UNIT_LEVERAGE_GAP {
+                            acc[1] += we2 / gap;
+                            acc[2] += we2 / (gap * gap);
+                        }
+                    }
+                }
+                for (sums, grouping) in cluster_sums.iter_mut().zip(&plan.groupings) {
+                    let s = &mut sums[col * grouping.range..(col + 1) * grouping.range];
+                    let codes = &grouping.codes[r0..r0 + nr];
+                    for i in 0..nr {
+                        s[codes[i] as usize] += wc[i] * ec[i];
+                    }
+                }
+            }
+        }
+        r0 += nr;
+    }
+
+    // Collect per model.
+    let mut col = 0;
+    for (t, (core, meat)) in cores.iter().zip(meats.iter_mut()).enumerate() {
+        let nwt = meat.wpos.len();
+        let cols = col..col + nwt;
+        if plan.need_hc0 {
+            meat.hc0 = cols.clone().map(|c| hc_acc[c][0]).collect();
+        }
+        if plan.need_hc2 {
+            meat.hc2 = cols.clone().map(|c| hc_acc[c][1]).collect();
+        }
+        if plan.need_hc3 {
+            meat.hc3 = cols.clone().map(|c| hc_acc[c][2]).collect();
+        }
+        meat.group_outer = cluster_sums
+            .iter()
+            .zip(&plan.groupings)
+            .map(|(sums, g)| outer_sums(&sums[col * g.range..(col + nwt) * g.range], g.range, nwt))
+            .collect();
+        meat.bp = Some(BpSums {
+            sum_u: sum_u[t],
+            sum_u2: sum_u2[t],
+            xtu: core.kept.iter().map(|&c| xtu[(c, t)]).collect(),
+            xt1: core.kept.iter().map(|&c| x_colsum[c]).collect(),
+        });
+        col += nwt;
+    }
+    meats
+}
+
+/// Meats with the w positions decided but no sums yet.
+pub(crate) fn empty_meats(core: &CoreFit, plan: &Plan) -> Meats {
+    let wpos = if !plan.need_w {
+        Vec::new()
+    } else if plan.all_coefs {
+        (0..core.k()).collect()
+    } else {
+        core.reported.clone()
+    };
+    Meats {
+        wpos,
+        ..Meats::default()
+    }
+}
+
+/// Σ_g s_g s_g' for `nw` columns of per-cluster sums laid out column after column (`range` each).
+pub(crate) fn outer_sums(sums: &[f64], range: usize, nw: usize) -> Vec<f64> {
+    let mut out = vec![0.0; nw * nw];
+    for j in 0..nw {
+        let sj = &sums[j * range..(j + 1) * range];
+        for i in 0..=j {
+            let si = &sums[i * range..(i + 1) * range];
+            let v: f64 = si.iter().zip(sj).map(|(a, b)| a * b).sum();
+            out[i + j * nw] = v;
+            out[j + i * nw] = v;
+        }
+    }
+    out
+}

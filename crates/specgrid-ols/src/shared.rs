@@ -1,0 +1,288 @@
+//! The shared-factor route: one Householder QR of the scaled union [X | Y], then per model a
+//! small QR of the selected columns of R (see docs/methods.md, "One factorisation for the grid").
+
+use faer::dyn_stack::{MemBuffer, MemStack};
+use faer::linalg::qr::no_pivoting::factor::{
+    qr_in_place, qr_in_place_scratch, recommended_block_size,
+};
+use faer::{Mat, Par};
+use rayon::prelude::*;
+
+use crate::api::{Design, EngineError, FitOptions, ModelError, ModelFit, ModelSpec};
+use crate::finish::finish;
+use crate::model_core::{core_from_factor, CoreFit, FactorParts, ModelTss};
+use crate::plan::Plan;
+use crate::refine::{needs_refinement, refine};
+use crate::row_pass::row_pass;
+use crate::small_qr::{factor_in_order, QrWork};
+use crate::student::TQuantiles;
+use crate::validate::{check_design, check_model, check_options};
+
+/// Most models per batch of the residual pass.
+const BATCH_MODELS: usize = 128;
+/// Budget (in f64 slots) for the per-cluster sums one batch may hold.
+const CLUSTER_BUDGET: usize = 1 << 22;
+
+/// One factorisation of a design, shared by every model fitted on it.
+#[derive(Debug)]
+pub struct SharedFactor<'a> {
+    design: &'a Design,
+    /// 2-norm of each union column (1 for an all-zero column).
+    x_scales: Vec<f64>,
+    /// 2-norm of each outcome (1 for an all-zero outcome).
+    y_scales: Vec<f64>,
+    /// Upper-triangular factor of the scaled [X | Y], min(n, p+m) × (p+m).
+    r: Mat<f64>,
+    /// Whether each union column is constant and nonzero.
+    x_constant: Vec<bool>,
+    /// Sum of each union column.
+    x_colsum: Vec<f64>,
+    /// Total sums of squares per outcome.
+    tss: Vec<ModelTss>,
+}
+
+/// Per-thread buffers for the per-model small factorisations.
+#[derive(Debug, Default)]
+struct CoreWork {
+    m: Vec<f64>,
+    kept: Vec<usize>,
+    r: Vec<f64>,
+    qty: Vec<f64>,
+    scales: Vec<f64>,
+    constant: Vec<bool>,
+    qr: QrWork,
+    resid: Vec<f64>,
+    sums: Vec<f64>,
+}
+
+impl<'a> SharedFactor<'a> {
+    /// Validates the design and factors its scaled union [X | Y] once.
+    pub fn new(design: &'a Design) -> Result<SharedFactor<'a>, EngineError> {
+        check_design(design)?;
+        let (n, p, m) = (design.x.nrows(), design.x.ncols(), design.y.ncols());
+        let scale = |v: f64| if v > 0.0 { v } else { 1.0 };
+        let x_scales: Vec<f64> = (0..p).map(|j| scale(design.x.col(j).norm_l2())).collect();
+        let y_scales: Vec<f64> = (0..m).map(|j| scale(design.y.col(j).norm_l2())).collect();
+        let mut z = Mat::<f64>::zeros(n, p + m);
+        for (j, &s) in x_scales.iter().enumerate() {
+            z.col_mut(j)
+                .iter_mut()
+                .zip(design.x.col(j).iter())
+                .for_each(|(d, v)| *d = v / s);
+        }
+        for (j, &s) in y_scales.iter().enumerate() {
+            z.col_mut(p + j)
+                .iter_mut()
+                .zip(design.y.col(j).iter())
+                .for_each(|(d, v)| *d = v / s);
+        }
+        let size = n.min(p + m);
+        let block = recommended_block_size::<f64>(n, p + m).max(1);
+        let mut coeff = Mat::<f64>::zeros(block, size);
+        // Sequential: the factor must be bit-identical whatever the thread count.
+        qr_in_place(
+            z.as_mut(),
+            coeff.as_mut(),
+            Par::Seq,
+            MemStack::new(&mut MemBuffer::new(qr_in_place_scratch::<f64>(
+                n,
+                p + m,
+                block,
+                Par::Seq,
+                Default::default(),
+            ))),
+            Default::default(),
+        );
+        let mut r = Mat::<f64>::zeros(size, p + m);
+        for j in 0..p + m {
+            for i in 0..=j.min(size.saturating_sub(1)) {
+                r[(i, j)] = z[(i, j)];
+            }
+        }
+        let x_constant = (0..p)
+            .map(|j| {
+                let c = design.x.col(j);
+                c[0] != 0.0 && c.iter().all(|&v| v == c[0])
+            })
+            .collect();
+        let x_colsum = (0..p).map(|j| design.x.col(j).iter().sum()).collect();
+        let tss = (0..m).map(|j| ModelTss::of(design.y.col(j))).collect();
+        Ok(SharedFactor {
+            design,
+            x_scales,
+            y_scales,
+            r,
+            x_constant,
+            x_colsum,
+            tss,
+        })
+    }
+
+    /// The design this factor belongs to.
+    pub fn design(&self) -> &Design {
+        self.design
+    }
+
+    /// Fits one model.
+    pub fn fit(&self, model: &ModelSpec, opts: &FitOptions) -> Result<ModelFit, ModelError> {
+        self.fit_many(std::slice::from_ref(model), opts)
+            .pop()
+            .expect("one result per model")
+    }
+
+    /// Fits many models in parallel (rayon); the output order is the input order, and the
+    /// numbers do not depend on the number of threads.
+    pub fn fit_many(
+        &self,
+        models: &[ModelSpec],
+        opts: &FitOptions,
+    ) -> Vec<Result<ModelFit, ModelError>> {
+        self.fit_many_with_progress(models, opts, &|_| {})
+    }
+
+    /// As [`SharedFactor::fit_many`], calling `on_done(count)` after each finished batch with the
+    /// number of models that batch held (the calls may come from several threads).
+    pub fn fit_many_with_progress(
+        &self,
+        models: &[ModelSpec],
+        opts: &FitOptions,
+        on_done: &(dyn Fn(usize) + Sync),
+    ) -> Vec<Result<ModelFit, ModelError>> {
+        if let Err(e) = check_options(opts, self.design) {
+            on_done(models.len());
+            return vec![Err(e); models.len()];
+        }
+        let plan = Plan::new(self.design, opts);
+        let batches = batch_bounds(models, &plan);
+        let results: Vec<Vec<Result<ModelFit, ModelError>>> = batches
+            .par_iter()
+            .map(|&(start, end)| {
+                let out = self.fit_batch(&models[start..end], opts, &plan);
+                on_done(end - start);
+                out
+            })
+            .collect();
+        results.into_iter().flatten().collect()
+    }
+
+    fn fit_batch(
+        &self,
+        models: &[ModelSpec],
+        opts: &FitOptions,
+        plan: &Plan,
+    ) -> Vec<Result<ModelFit, ModelError>> {
+        let mut work = CoreWork::default();
+        let cores: Vec<Result<CoreFit, ModelError>> = models
+            .iter()
+            .map(|m| self.core(m, opts, &mut work))
+            .collect();
+        let ok: Vec<&CoreFit> = cores.iter().filter_map(|c| c.as_ref().ok()).collect();
+        let meats = row_pass(
+            self.design.x.as_ref(),
+            self.design.y.as_ref(),
+            &self.x_colsum,
+            &ok,
+            plan,
+        );
+        let mut tq = TQuantiles::new(opts.confidence_level);
+        let mut meats = meats.into_iter();
+        cores
+            .into_iter()
+            .map(|c| {
+                let core = c?;
+                let meat = meats.next().expect("one meat per core");
+                finish(&core, &meat, plan, opts, &mut tq)
+            })
+            .collect()
+    }
+
+    /// The small factorisation of one model: M = [R[:, S] | R[:, p + j]] in model order.
+    fn core(
+        &self,
+        model: &ModelSpec,
+        opts: &FitOptions,
+        w: &mut CoreWork,
+    ) -> Result<CoreFit, ModelError> {
+        let design = self.design;
+        let (n, p, m) = (design.x.nrows(), design.x.ncols(), design.y.ncols());
+        check_model(model, p, m, n)?;
+        let k = model.columns.len();
+        let ycol = p + model.outcome;
+        // R is upper triangular, so rows beyond the outcome's column are zero.
+        let rows = self.r.nrows().min(ycol + 1);
+        w.m.clear();
+        for &c in model.columns.iter().chain(std::iter::once(&ycol)) {
+            w.m.extend((0..rows).map(|i| self.r[(i, c)]));
+        }
+        let out = factor_in_order(
+            &mut w.m,
+            rows,
+            k + 1,
+            opts.collinearity_tolerance,
+            &mut w.kept,
+            &mut w.qr,
+        );
+        let kk = out.kept;
+        w.r.clear();
+        w.r.resize(kk * kk, 0.0);
+        for (q, &pos) in w.kept.iter().enumerate() {
+            for i in 0..=q {
+                w.r[i + q * kk] = w.m[pos * rows + i];
+            }
+        }
+        w.qty.clear();
+        w.qty.extend((0..kk).map(|i| w.m[k * rows + i]));
+        w.scales.clear();
+        w.scales
+            .extend(model.columns.iter().map(|&c| self.x_scales[c]));
+        w.sums.clear();
+        w.sums
+            .extend(model.columns.iter().map(|&c| self.x_colsum[c]));
+        w.constant.clear();
+        w.constant
+            .extend(model.columns.iter().map(|&c| self.x_constant[c]));
+        let parts = FactorParts {
+            kept_pos: &w.kept,
+            r: &w.r,
+            qty: &w.qty,
+            resid_norm: out.resid_norm,
+            col_scales: &w.scales,
+            y_scale: self.y_scales[model.outcome],
+            col_constant: &w.constant,
+            tss: self.tss[model.outcome],
+            col_sums: &w.sums,
+        };
+        let mut core = core_from_factor(n, model, &parts, &design.x_names, opts)?;
+        if needs_refinement(&core) {
+            let y = design.y.col(model.outcome);
+            refine(&mut core, design.x.as_ref(), y, opts, &mut w.resid)?;
+        }
+        Ok(core)
+    }
+}
+
+/// Splits the models into contiguous batches: at most [`BATCH_MODELS`], and no more per-cluster
+/// sums than [`CLUSTER_BUDGET`]. Depends only on the request, never on the thread count.
+fn batch_bounds(models: &[ModelSpec], plan: &Plan) -> Vec<(usize, usize)> {
+    let range: usize = plan.groupings.iter().map(|g| g.range).sum();
+    let mut out = Vec::new();
+    let (mut start, mut used) = (0, 0usize);
+    for (i, m) in models.iter().enumerate() {
+        let nw = if plan.all_coefs || m.tracked.is_empty() {
+            m.columns.len()
+        } else {
+            m.tracked.len()
+        };
+        let cost = nw * range;
+        if i > start && (i - start >= BATCH_MODELS || used + cost > CLUSTER_BUDGET) {
+            out.push((start, i));
+            start = i;
+            used = 0;
+        }
+        used += cost;
+    }
+    if start < models.len() {
+        out.push((start, models.len()));
+    }
+    out
+}
