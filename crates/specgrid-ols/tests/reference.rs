@@ -4,7 +4,7 @@
 //! tests/reference/statsmodels/check_live.sh regenerates them against live PyPI packages).
 //!
 //! Every check below compares at relative 1e-8 unless said otherwise. Conventions mapped between
-//! the two sides (see /work/shared/design/engine-notes.md, checked in make_fixtures.py):
+//! the two sides (see ../shared/design/engine-notes.md; checked in make_fixtures.py):
 //! - statsmodels' `bse` under cov_type nonrobust / HC0..HC3 / cluster (1-D groups) / cluster
 //!   (n × 2 groups) ↔ our Classical / Hc0..Hc3 / Cluster / TwoWayCluster standard errors.
 //! - p-values: statsmodels was fitted with `use_t=True`, which gives Student t with df n − k for
