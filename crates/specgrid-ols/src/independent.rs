@@ -15,7 +15,7 @@ use crate::plan::Plan;
 use crate::refine::{needs_refinement, refine};
 use crate::row_pass::{empty_meats, outer_sums};
 use crate::student::TQuantiles;
-use crate::validate::{check_design, check_model, check_options};
+use crate::validate::{check_design_shape, check_model, check_options, check_used_columns};
 
 /// Fits one model by a fresh QR of its own columns (model order), dropping any column whose
 /// diagonal entry in R falls below the collinearity tolerance and re-factoring without it.
@@ -24,10 +24,12 @@ pub fn fit_independent(
     model: &ModelSpec,
     opts: &FitOptions,
 ) -> Result<ModelFit, ModelError> {
-    check_design(design).map_err(|e| ModelError::InvalidRequest(e.to_string()))?;
+    let invalid = |e: crate::api::EngineError| ModelError::InvalidRequest(e.to_string());
+    check_design_shape(design).map_err(invalid)?;
     check_options(opts, design)?;
     let (n, p, m) = (design.x.nrows(), design.x.ncols(), design.y.ncols());
     check_model(model, p, m, n)?;
+    check_used_columns(design, &model.columns, model.outcome).map_err(invalid)?;
     let plan = Plan::new(design, opts);
     let core = independent_core(design, model, opts)?;
     let meats = direct_sums(design, &core, &plan);
@@ -73,13 +75,15 @@ fn independent_core(
         let mut z = Mat::<f64>::zeros(n, k + 1);
         for (q, &pos) in kept_pos.iter().enumerate() {
             let (c, s) = (model.columns[pos], col_scales[pos]);
-            for i in 0..n {
-                z[(i, q)] = design.x[(i, c)] / s;
-            }
+            z.col_mut(q)
+                .iter_mut()
+                .zip(column(&design.x, c))
+                .for_each(|(d, v)| *d = v / s);
         }
-        for i in 0..n {
-            z[(i, k)] = y[i] / y_scale;
-        }
+        z.col_mut(k)
+            .iter_mut()
+            .zip(y.iter())
+            .for_each(|(d, v)| *d = v / y_scale);
         let size = n.min(k + 1);
         let block = recommended_block_size::<f64>(n, k + 1).max(1);
         let mut coeff = Mat::<f64>::zeros(block, size);
@@ -144,88 +148,104 @@ fn independent_core(
     }
 }
 
-/// Every residual-based sum by direct loops over rows.
+/// Contiguous slice of a column of a column-major faer matrix.
+fn column(m: &Mat<f64>, j: usize) -> &[f64] {
+    m.col(j)
+        .try_as_col_major()
+        .expect("faer Mat columns are contiguous")
+        .as_slice()
+}
+
+/// Every residual-based sum by direct loops over the model's own columns.
 fn direct_sums(design: &Design, core: &CoreFit, plan: &Plan) -> Meats {
     let n = core.n;
     let k = core.k();
-    let x = &design.x;
-    let y = design.y.col(core.outcome);
+    let cols: Vec<&[f64]> = core.kept.iter().map(|&c| column(&design.x, c)).collect();
+    let y = column(&design.y, core.outcome);
     let mut meats = empty_meats(core, plan);
-    let resid: Vec<f64> = (0..n)
-        .map(|i| {
-            y[i] - (0..k)
-                .map(|q| x[(i, core.kept[q])] * core.coef[q])
-                .sum::<f64>()
-        })
-        .collect();
-    let mut bp = BpSums {
-        xtu: vec![0.0; k],
-        xt1: vec![0.0; k],
-        ..BpSums::default()
-    };
-    for (i, e) in resid.iter().enumerate() {
-        let u = e * e;
-        bp.sum_u += u;
-        bp.sum_u2 += u * u;
-        for q in 0..k {
-            let xv = x[(i, core.kept[q])];
-            bp.xtu[q] += xv * u;
-            bp.xt1[q] += xv;
-        }
+    let mut resid = y.to_vec();
+    for (col, b) in cols.iter().zip(&core.coef) {
+        resid
+            .iter_mut()
+            .zip(col.iter())
+            .for_each(|(r, x)| *r -= b * x);
     }
-    meats.bp = Some(bp);
+    let u: Vec<f64> = resid.iter().map(|e| e * e).collect();
+    meats.bp = Some(BpSums {
+        sum_u: u.iter().sum(),
+        sum_u2: u.iter().map(|v| v * v).sum(),
+        xtu: cols
+            .iter()
+            .map(|c| c.iter().zip(&u).map(|(x, v)| x * v).sum())
+            .collect(),
+        xt1: cols.iter().map(|c| c.iter().sum()).collect(),
+    });
     let nw = meats.wpos.len();
     if nw == 0 {
         return meats;
     }
-    let mut a = vec![vec![0.0; k]; nw];
-    for (wi, &q) in meats.wpos.iter().enumerate() {
-        core.xtx_inv_row(q, &mut a[wi]);
+    // hᵢ = ‖row i of X_S D⁻¹ R⁻¹‖², built column by column of Q = X_S D⁻¹R⁻¹.
+    let leverage: Vec<f64> = if plan.need_leverage() {
+        let mut h = vec![0.0; n];
+        let mut qc = vec![0.0; n];
+        for c in 0..k {
+            qc.fill(0.0);
+            for l in 0..=c {
+                let f = core.rinv[l + c * k] / core.scales[l];
+                qc.iter_mut()
+                    .zip(cols[l].iter())
+                    .for_each(|(q, x)| *q += f * x);
+            }
+            h.iter_mut().zip(&qc).for_each(|(h, q)| *h += q * q);
+        }
+        h
+    } else {
+        Vec::new()
+    };
+    if let Some(row) = leverage.iter().position(|h| 1.0 - h <= UNIT_LEVERAGE_GAP) {
+        meats.unit_leverage_row = Some(row);
     }
-    let leverage: Vec<f64> = (0..n)
-        .map(|i| {
-            (0..k)
-                .map(|c| {
-                    (0..=c)
-                        .map(|l| x[(i, core.kept[l])] / core.scales[l] * core.rinv[l + c * k])
-                        .sum::<f64>()
-                        .powi(2)
-                })
-                .sum()
-        })
-        .collect();
-    let mut hc = vec![[0.0f64; 3]; nw];
+    let mut a = vec![0.0; k];
+    let mut we = vec![0.0; n];
     let mut cluster: Vec<Vec<f64>> = plan
         .groupings
         .iter()
         .map(|g| vec![0.0; g.range * nw])
         .collect();
-    for i in 0..n {
-        let gap = 1.0 - leverage[i];
-        if plan.need_leverage() && gap <= UNIT_LEVERAGE_GAP && meats.unit_leverage_row.is_none() {
-            meats.unit_leverage_row = Some(i);
+    for (wi, &q) in meats.wpos.clone().iter().enumerate() {
+        // wᵢ·eᵢ with wᵢ = (row q of (X'X)⁻¹)·xᵢ.
+        core.xtx_inv_row(q, &mut a);
+        we.fill(0.0);
+        for (col, al) in cols.iter().zip(&a) {
+            we.iter_mut()
+                .zip(col.iter())
+                .for_each(|(w, x)| *w += al * x);
         }
-        for (wi, aw) in a.iter().enumerate() {
-            let w: f64 = (0..k).map(|l| aw[l] * x[(i, core.kept[l])]).sum();
-            let we = w * resid[i];
-            hc[wi][0] += we * we;
+        we.iter_mut().zip(&resid).for_each(|(w, e)| *w *= e);
+        let hc0: f64 = we.iter().map(|v| v * v).sum();
+        let (mut hc2, mut hc3) = (0.0, 0.0);
+        for (v, h) in we.iter().zip(&leverage) {
+            let gap = 1.0 - h;
             if gap > UNIT_LEVERAGE_GAP {
-                hc[wi][1] += we * we / gap;
-                hc[wi][2] += we * we / (gap * gap);
-            }
-            for (sums, g) in cluster.iter_mut().zip(&plan.groupings) {
-                sums[wi * g.range + g.codes[i] as usize] += we;
+                hc2 += v * v / gap;
+                hc3 += v * v / (gap * gap);
             }
         }
-    }
-    if plan.need_hc0 {
-        meats.hc0 = hc.iter().map(|h| h[0]).collect();
-    }
-    if plan.need_hc2 {
-        meats.hc2 = hc.iter().map(|h| h[1]).collect();
-    }
-    if plan.need_hc3 {
-        meats.hc3 = hc.iter().map(|h| h[2]).collect();
+        if plan.need_hc0 {
+            meats.hc0.push(hc0);
+        }
+        if plan.need_hc2 {
+            meats.hc2.push(hc2);
+        }
+        if plan.need_hc3 {
+            meats.hc3.push(hc3);
+        }
+        for (sums, g) in cluster.iter_mut().zip(&plan.groupings) {
+            let s = &mut sums[wi * g.range..(wi + 1) * g.range];
+            for (v, &code) in we.iter().zip(&g.codes) {
+                s[code as usize] += v;
+            }
+        }
     }
     meats.group_outer = cluster
         .iter()

@@ -4,6 +4,30 @@ use crate::api::{Covariance, Design, EngineError, FitOptions, ModelError, ModelS
 
 /// Checks shapes, names, cluster codes and finiteness of a design.
 pub(crate) fn check_design(design: &Design) -> Result<(), EngineError> {
+    check_design_shape(design)?;
+    for (j, name) in design.x_names.iter().enumerate() {
+        check_finite(design.x.col(j).iter(), name)?;
+    }
+    for (j, name) in design.y_names.iter().enumerate() {
+        check_finite(design.y.col(j).iter(), name)?;
+    }
+    Ok(())
+}
+
+/// Finiteness of the given regressor columns and outcome only (indices already checked).
+pub(crate) fn check_used_columns(
+    design: &Design,
+    columns: &[usize],
+    outcome: usize,
+) -> Result<(), EngineError> {
+    for &j in columns {
+        check_finite(design.x.col(j).iter(), &design.x_names[j])?;
+    }
+    check_finite(design.y.col(outcome).iter(), &design.y_names[outcome])
+}
+
+/// Checks shapes, names and cluster codes (not the values).
+pub(crate) fn check_design_shape(design: &Design) -> Result<(), EngineError> {
     let n = design.x.nrows();
     let (p, m) = (design.x.ncols(), design.y.ncols());
     if design.y.nrows() != n {
@@ -41,12 +65,6 @@ pub(crate) fn check_design(design: &Design) -> Result<(), EngineError> {
                 c.name, c.codes[row], c.count
             )));
         }
-    }
-    for (j, name) in design.x_names.iter().enumerate() {
-        check_finite(design.x.col(j).iter(), name)?;
-    }
-    for (j, name) in design.y_names.iter().enumerate() {
-        check_finite(design.y.col(j).iter(), name)?;
     }
     Ok(())
 }
