@@ -20,14 +20,14 @@
 
 mod aggregate;
 mod effect;
-// mod html;
+mod html;
 mod input;
-// mod latex;
-// mod markdown;
+mod latex;
+mod markdown;
 mod rows;
 mod stats;
 mod summary;
-// mod svg;
+mod svg;
 mod terminal;
 mod text;
 
@@ -101,17 +101,17 @@ impl Report {
 
     /// The self-contained `report.html`.
     pub fn html(&self) -> String {
-        String::new() // TEMP
+        html::render(self)
     }
 
     /// `report.md`.
     pub fn markdown(&self) -> String {
-        String::new() // TEMP
+        markdown::render(self)
     }
 
     /// `appendix.tex`: a table and a TikZ figure of the specification curve.
     pub fn latex(&self) -> String {
-        String::new() // TEMP
+        latex::render(self)
     }
 
     /// Writes [`OUTPUT_FILES`] into `dir`. Every file is first written beside its final name

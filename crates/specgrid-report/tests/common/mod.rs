@@ -75,3 +75,67 @@ pub fn small_grid() -> ReportInput {
         baseline_residuals: Some(vec![(1.0, 0.5), (2.0, -0.25), (3.0, 0.1)]),
     }
 }
+
+/// A full grid over five decisions with `per_dim` options each (per_dim⁵ models). The effect is
+/// 0.03 plus a shift per option plus a small deterministic wobble; SEs vary so that some
+/// models are significant and some are not.
+pub fn big_grid(per_dim: usize) -> ReportInput {
+    let names = ["outcome", "focus", "plot size", "irrigation", "sample"];
+    let dimensions: Vec<DimensionInfo> = names
+        .iter()
+        .map(|n| DimensionInfo {
+            name: n.to_string(),
+            options: (0..per_dim).map(|o| format!("{n} option {o}")).collect(),
+        })
+        .collect();
+    let total = per_dim.pow(5);
+    let models = (0..total)
+        .map(|i| {
+            let mut rest = i;
+            let choices: Vec<usize> = (0..5)
+                .map(|_| {
+                    let c = rest % per_dim;
+                    rest /= per_dim;
+                    c
+                })
+                .rev()
+                .collect();
+            let estimate = 0.03 + 0.01 * choices[2] as f64 - 0.004 * choices[3] as f64
+                + 0.002 * (i as f64 * 0.7).sin();
+            let se = 0.004 + 0.003 * choices[4] as f64;
+            ModelEntry {
+                model_id: format!("{i:012x}"),
+                choices,
+                status: ModelStatus::Ok,
+                effects: vec![
+                    Some(Effect::coefficient(estimate, Some(se), 500.0)),
+                    Some(Effect::coefficient(estimate, Some(1.5 * se), 149.0)),
+                ],
+                n_obs: Some(600),
+                n_params: Some(12),
+                r_squared: Some(0.4),
+                resid_sd: Some(0.3 + 0.001 * (i % 7) as f64),
+                het_p_value: Some(((i * 37) % 100) as f64 / 100.0),
+                outcome_label: "log(y)".into(),
+            }
+        })
+        .collect();
+    ReportInput {
+        title: "Synthetic grid".into(),
+        scale: Scale::SemiElasticity,
+        effect_label: "visits".into(),
+        dimensions,
+        error_labels: vec!["classical".into(), "cluster:village".into()],
+        significance_level: 0.05,
+        confidence_level: 0.95,
+        baseline_model_id: None,
+        models,
+        study_text: "[study]\ntitle = \"Synthetic grid\"\n".into(),
+        data_fingerprint: "feedface".into(),
+        baseline_residuals: Some(
+            (0..10_000)
+                .map(|i| (i as f64 / 100.0, ((i * 13) % 17) as f64 / 17.0 - 0.5))
+                .collect(),
+        ),
+    }
+}
