@@ -190,11 +190,9 @@ fn direct_sums(design: &Design, core: &CoreFit, plan: &Plan) -> Meats {
         let mut qc = vec![0.0; n];
         for c in 0..k {
             qc.fill(0.0);
-            for l in 0..=c {
+            for (l, col) in cols.iter().enumerate().take(c + 1) {
                 let f = core.rinv[l + c * k] / core.scales[l];
-                qc.iter_mut()
-                    .zip(cols[l].iter())
-                    .for_each(|(q, x)| *q += f * x);
+                qc.iter_mut().zip(col.iter()).for_each(|(q, x)| *q += f * x);
             }
             h.iter_mut().zip(&qc).for_each(|(h, q)| *h += q * q);
         }
