@@ -74,7 +74,11 @@ fn rows_become_coefficient_scale_models() {
     assert_eq!(report.summary.models.failed, 1);
     assert_eq!(report.summary.by_errors[0].models, 2);
     // Mixed focus forms on the coefficient scale carry a warning.
-    assert!(report.summary.cautions.iter().any(|c| c.contains("not on one scale")));
+    assert!(report
+        .summary
+        .cautions
+        .iter()
+        .any(|c| c.contains("not on one scale")));
 }
 
 #[test]
