@@ -8,7 +8,7 @@ use statrs::distribution::{ChiSquared, ContinuousCDF};
 use crate::api::{
     BreuschPagan, Coefficient, Covariance, FitOptions, Inference, ModelError, ModelFit,
 };
-use crate::model_core::CoreFit;
+use crate::model_core::{projected_sq_norm, CoreFit};
 use crate::plan::{CovGroups, Plan};
 use crate::student::{two_sided_p, TQuantiles};
 
@@ -230,15 +230,8 @@ fn breusch_pagan(core: &CoreFit, bp: &BpSums) -> Option<BreuschPagan> {
     }
     // Q_S'(u − ū1) = R⁻ᵀ D⁻¹ X_S'(u − ū1); its squared norm is the explained sum of squares
     // (the constant lies in the column space, so centring commutes with the projection).
-    let z: Vec<f64> = (0..k)
-        .map(|q| (bp.xtu[q] - mean * bp.xt1[q]) / core.scales[q])
-        .collect();
-    let ess: f64 = (0..k)
-        .map(|c| {
-            let v: f64 = (0..=c).map(|q| core.rinv[q + c * k] * z[q]).sum();
-            v * v
-        })
-        .sum();
+    let centred: Vec<f64> = (0..k).map(|q| bp.xtu[q] - mean * bp.xt1[q]).collect();
+    let ess = projected_sq_norm(&core.rinv, &core.scales, &centred);
     let statistic = n * (ess / tss).clamp(0.0, 1.0);
     let df = (core.k() - 1) as f64;
     let p_value = ChiSquared::new(df)

@@ -2,13 +2,10 @@
 //! columns and plain per-row loops for every residual-based sum. It shares no factor with
 //! [`crate::SharedFactor`]; property tests compare the two and the benchmark uses it as baseline.
 
-use faer::dyn_stack::{MemBuffer, MemStack};
-use faer::linalg::qr::no_pivoting::factor::{
-    qr_in_place, qr_in_place_scratch, recommended_block_size,
-};
-use faer::{Mat, Par};
+use faer::Mat;
 
 use crate::api::{Design, FitOptions, ModelError, ModelFit, ModelSpec};
+use crate::dense::{householder_in_place, is_constant_nonzero, unit_scale};
 use crate::finish::{finish, BpSums, Meats, UNIT_LEVERAGE_GAP};
 use crate::model_core::{core_from_factor, CoreFit, FactorParts, ModelTss};
 use crate::plan::Plan;
@@ -48,21 +45,17 @@ fn independent_core(
     opts: &FitOptions,
 ) -> Result<CoreFit, ModelError> {
     let n = design.x.nrows();
-    let norm = |v: f64| if v > 0.0 { v } else { 1.0 };
     let col_scales: Vec<f64> = model
         .columns
         .iter()
-        .map(|&c| norm(design.x.col(c).norm_l2()))
+        .map(|&c| unit_scale(design.x.col(c)))
         .collect();
     let y = design.y.col(model.outcome);
-    let y_scale = norm(y.norm_l2());
+    let y_scale = unit_scale(y);
     let col_constant: Vec<bool> = model
         .columns
         .iter()
-        .map(|&c| {
-            let col = design.x.col(c);
-            col[0] != 0.0 && col.iter().all(|&v| v == col[0])
-        })
+        .map(|&c| is_constant_nonzero(design.x.col(c)))
         .collect();
     let col_sums: Vec<f64> = model
         .columns
@@ -84,37 +77,14 @@ fn independent_core(
             .iter_mut()
             .zip(y.iter())
             .for_each(|(d, v)| *d = v / y_scale);
-        let size = n.min(k + 1);
-        let block = recommended_block_size::<f64>(n, k + 1).max(1);
-        let mut coeff = Mat::<f64>::zeros(block, size);
-        qr_in_place(
-            z.as_mut(),
-            coeff.as_mut(),
-            Par::Seq,
-            MemStack::new(&mut MemBuffer::new(qr_in_place_scratch::<f64>(
-                n,
-                k + 1,
-                block,
-                Par::Seq,
-                Default::default(),
-            ))),
-            Default::default(),
-        );
+        householder_in_place(&mut z);
         // A unit-norm column keeps |R_qq| of new direction; below tolerance it is dependent.
         // Only the first small diagonal is trustworthy: after a dependent column the unpivoted
         // QR's later diagonals can collapse too (R_qq = 0 seen for an independent column), so
         // drop one column per pass and re-factor.
-        let flagged: Vec<usize> = (0..k)
-            .find(|&q| q >= n || z[(q, q)].abs() <= opts.collinearity_tolerance)
-            .into_iter()
-            .collect();
-        if !flagged.is_empty() {
-            kept_pos = kept_pos
-                .iter()
-                .enumerate()
-                .filter(|(q, _)| !flagged.contains(q))
-                .map(|(_, &pos)| pos)
-                .collect();
+        if let Some(q) = (0..k).find(|&q| q >= n || z[(q, q)].abs() <= opts.collinearity_tolerance)
+        {
+            kept_pos.remove(q);
             continue;
         }
         let r: Vec<f64> = (0..k * k)

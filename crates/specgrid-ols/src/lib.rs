@@ -1,6 +1,8 @@
 //! Shared-factorisation OLS engine: many related least-squares models on one union design,
 //! from one Householder QR. See docs/methods.md for the algebra and its sources.
+#![warn(missing_docs)]
 pub mod api;
+mod dense;
 mod finish;
 mod independent;
 mod model_core;

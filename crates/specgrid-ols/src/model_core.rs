@@ -119,14 +119,23 @@ pub(crate) struct FactorParts<'a> {
 /// counts as containing a constant (a full indicator set without an explicit constant column).
 const SPAN_TOL: f64 = 1e-10;
 
-/// Whether 1 lies in the span of the kept columns: ‖Q_S'1‖² = ‖R⁻ᵀD⁻¹X_S'1‖² equals n then.
-fn spans_ones(n: usize, rinv: &[f64], scales: &[f64], sums: &[f64]) -> bool {
+/// ‖Q_S'v‖² = ‖R⁻ᵀD⁻¹X_S'v‖² from `xtv` = X_S'v (data units, kept order): the squared length
+/// of v's projection on the model's column space.
+pub(crate) fn projected_sq_norm(rinv: &[f64], scales: &[f64], xtv: &[f64]) -> f64 {
     let k = scales.len();
-    let z: Vec<f64> = (0..k).map(|q| sums[q] / scales[q]).collect();
-    let explained: f64 = (0..k)
-        .map(|c| (0..=c).map(|q| rinv[q + c * k] * z[q]).sum::<f64>().powi(2))
-        .sum();
-    explained >= n as f64 * (1.0 - SPAN_TOL)
+    (0..k)
+        .map(|c| {
+            (0..=c)
+                .map(|q| rinv[q + c * k] * xtv[q] / scales[q])
+                .sum::<f64>()
+                .powi(2)
+        })
+        .sum()
+}
+
+/// Whether 1 lies in the span of the kept columns: ‖Q_S'1‖² equals n then.
+fn spans_ones(n: usize, rinv: &[f64], scales: &[f64], sums: &[f64]) -> bool {
+    projected_sq_norm(rinv, scales, sums) >= n as f64 * (1.0 - SPAN_TOL)
 }
 
 /// Builds a [`CoreFit`] from a factor, refusing models that cannot be given trustworthy numbers.

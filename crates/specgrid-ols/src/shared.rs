@@ -1,14 +1,11 @@
 //! The shared-factor route: one Householder QR of the scaled union [X | Y], then per model a
 //! small QR of the selected columns of R (see docs/methods.md, "One factorisation for the grid").
 
-use faer::dyn_stack::{MemBuffer, MemStack};
-use faer::linalg::qr::no_pivoting::factor::{
-    qr_in_place, qr_in_place_scratch, recommended_block_size,
-};
-use faer::{Mat, Par};
+use faer::Mat;
 use rayon::prelude::*;
 
 use crate::api::{Design, EngineError, FitOptions, ModelError, ModelFit, ModelSpec};
+use crate::dense::{householder_in_place, is_constant_nonzero, unit_scale};
 use crate::finish::finish;
 use crate::model_core::{core_from_factor, CoreFit, FactorParts, ModelTss};
 use crate::plan::Plan;
@@ -60,9 +57,8 @@ impl<'a> SharedFactor<'a> {
     pub fn new(design: &'a Design) -> Result<SharedFactor<'a>, EngineError> {
         check_design(design)?;
         let (n, p, m) = (design.x.nrows(), design.x.ncols(), design.y.ncols());
-        let scale = |v: f64| if v > 0.0 { v } else { 1.0 };
-        let x_scales: Vec<f64> = (0..p).map(|j| scale(design.x.col(j).norm_l2())).collect();
-        let y_scales: Vec<f64> = (0..m).map(|j| scale(design.y.col(j).norm_l2())).collect();
+        let x_scales: Vec<f64> = (0..p).map(|j| unit_scale(design.x.col(j))).collect();
+        let y_scales: Vec<f64> = (0..m).map(|j| unit_scale(design.y.col(j))).collect();
         let mut z = Mat::<f64>::zeros(n, p + m);
         for (j, &s) in x_scales.iter().enumerate() {
             z.col_mut(j)
@@ -76,23 +72,8 @@ impl<'a> SharedFactor<'a> {
                 .zip(design.y.col(j).iter())
                 .for_each(|(d, v)| *d = v / s);
         }
+        householder_in_place(&mut z);
         let size = n.min(p + m);
-        let block = recommended_block_size::<f64>(n, p + m).max(1);
-        let mut coeff = Mat::<f64>::zeros(block, size);
-        // Sequential: the factor must be bit-identical whatever the thread count.
-        qr_in_place(
-            z.as_mut(),
-            coeff.as_mut(),
-            Par::Seq,
-            MemStack::new(&mut MemBuffer::new(qr_in_place_scratch::<f64>(
-                n,
-                p + m,
-                block,
-                Par::Seq,
-                Default::default(),
-            ))),
-            Default::default(),
-        );
         let mut r = Mat::<f64>::zeros(size, p + m);
         for j in 0..p + m {
             for i in 0..=j.min(size.saturating_sub(1)) {
@@ -100,10 +81,7 @@ impl<'a> SharedFactor<'a> {
             }
         }
         let x_constant = (0..p)
-            .map(|j| {
-                let c = design.x.col(j);
-                c[0] != 0.0 && c.iter().all(|&v| v == c[0])
-            })
+            .map(|j| is_constant_nonzero(design.x.col(j)))
             .collect();
         let x_colsum = (0..p).map(|j| design.x.col(j).iter().sum()).collect();
         let tss = (0..m).map(|j| ModelTss::of(design.y.col(j))).collect();
