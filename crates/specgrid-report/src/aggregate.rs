@@ -199,7 +199,7 @@ fn error_summary(input: &ReportInput, e: usize, baseline: Option<usize>) -> Erro
         .iter()
         .map(|p| {
             (
-                input.models[p.1].effects[e].unwrap_or_else(|| unreachable_effect()),
+                input.models[p.1].effects[e].unwrap_or_else(unreachable_effect),
                 p.1,
             )
         })

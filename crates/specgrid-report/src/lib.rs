@@ -18,6 +18,8 @@
 //!
 //! The crate never reads data files and does not depend on polars or faer.
 
+#![warn(missing_docs)]
+
 mod aggregate;
 mod effect;
 mod html;

@@ -60,7 +60,10 @@ impl Axis {
 
 /// Round tick values covering [lo, hi] (about `n` of them), steps of 1, 2 or 5 × 10^k.
 pub(crate) fn nice_ticks(lo: f64, hi: f64, n: usize) -> Vec<f64> {
-    if !(hi > lo) || !lo.is_finite() || !hi.is_finite() {
+    if hi.partial_cmp(&lo) != Some(std::cmp::Ordering::Greater)
+        || !lo.is_finite()
+        || !hi.is_finite()
+    {
         return vec![lo];
     }
     let raw = (hi - lo) / n.max(1) as f64;

@@ -32,15 +32,14 @@ pub fn pct(v: Option<f64>) -> String {
 
 /// An integer with thin thousands separators (commas).
 pub fn count(n: usize) -> String {
-    let s = n.to_string();
-    let mut out = String::new();
-    for (i, c) in s.chars().enumerate() {
-        if i > 0 && (s.len() - i) % 3 == 0 {
-            out.push(',');
-        }
-        out.push(c);
-    }
-    out
+    let digits = n.to_string();
+    let groups: Vec<&str> = digits
+        .as_bytes()
+        .rchunks(3)
+        .rev()
+        .map(|g| std::str::from_utf8(g).unwrap_or(""))
+        .collect();
+    groups.join(",")
 }
 
 /// Escapes text for HTML and SVG.
