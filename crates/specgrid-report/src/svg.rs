@@ -319,7 +319,7 @@ pub fn spec_curve(report: &Report) -> String {
                 row_y + row_h / 2.0,
                 row_y + row_h / 2.0
             ));
-            s.push_str(&option_row(&marks, d, o, &x, row_y, row_h));
+            s.push_str(&option_row(&marks, d, o, &x, row_y, row_h, grouped));
             row_y += row_h;
         }
         row_y += gap;
@@ -336,8 +336,32 @@ pub fn spec_curve(report: &Report) -> String {
 
 /// One option row: a dark cell where models take the option; grouped columns are shaded by
 /// the share (in tenths), with runs of equal shade merged into one rectangle.
-fn option_row(marks: &[Mark], d: usize, o: usize, x: &Axis, top: f64, h: f64) -> String {
+fn option_row(
+    marks: &[Mark],
+    d: usize,
+    o: usize,
+    x: &Axis,
+    top: f64,
+    h: f64,
+    grouped: bool,
+) -> String {
     let mut s = String::new();
+    if !grouped {
+        // One model per column: a separate cell per model, so neighbours stay distinguishable.
+        let slot = x.at(1.0) - x.at(0.0);
+        let w = (slot * 0.7).max(0.6);
+        for (k, m) in marks.iter().enumerate() {
+            if m.option_shares[d][o] > 0.5 {
+                s.push_str(&format!(
+                    "<rect class=\"cell\" x=\"{:.1}\" y=\"{:.1}\" width=\"{w:.1}\" height=\"{:.1}\"/>\n",
+                    x.at(k as f64 + 0.5) - w / 2.0,
+                    top + 2.0,
+                    h - 4.0
+                ));
+            }
+        }
+        return s;
+    }
     let mut k = 0;
     while k < marks.len() {
         let level = (marks[k].option_shares[d][o] * 10.0).round() as u32;
@@ -468,9 +492,11 @@ pub fn residual_scatter(pairs: &[(f64, f64)]) -> String {
         y.at(0.0),
         y.at(0.0)
     ));
+    // Fewer points can be drawn larger without hiding each other.
+    let radius = if shown.len() < 500 { 3.0 } else { 1.6 };
     for (f, r) in &shown {
         s.push_str(&format!(
-            "<circle cx=\"{:.1}\" cy=\"{:.1}\" r=\"1.6\"/>\n",
+            "<circle cx=\"{:.1}\" cy=\"{:.1}\" r=\"{radius:.1}\"/>\n",
             x.at(*f),
             y.at(*r)
         ));
