@@ -10,7 +10,10 @@
 use std::path::PathBuf;
 use std::process::ExitCode;
 
-use specgrid_report::{dimensions_from_rows, Report, ReportHeader, ReportInput, ResultRow};
+use specgrid_report::{dimensions_from_rows, Report, ReportHeader, ReportInput};
+
+#[path = "../tests/common/models_csv.rs"]
+mod models_csv;
 
 fn main() -> ExitCode {
     match run() {
@@ -50,76 +53,7 @@ fn run() -> Result<(), String> {
             other => return Err(format!("unknown option {other}")),
         }
     }
-    let path = results.join("models.csv");
-    let mut reader =
-        csv::Reader::from_path(&path).map_err(|e| format!("{}: {e}", path.display()))?;
-    let headers = reader.headers().map_err(|e| e.to_string())?.clone();
-    let col = |name: &str| {
-        headers
-            .iter()
-            .position(|h| h == name)
-            .ok_or(format!("{}: no column `{name}`", path.display()))
-    };
-    let errors_col = col("errors")?;
-    let dim_names: Vec<String> = headers
-        .iter()
-        .skip(1)
-        .take(errors_col - 1)
-        .map(String::from)
-        .collect();
-    let idx = |n: &str| col(n);
-    let (term, est, se, df) = (
-        idx("term")?,
-        idx("estimate")?,
-        idx("std_error")?,
-        idx("df")?,
-    );
-    let (n_obs, n_params, r2, sd) = (
-        idx("n_obs")?,
-        idx("n_params")?,
-        idx("r_squared")?,
-        idx("resid_sd")?,
-    );
-    let (het, outcome, status, message) = (
-        idx("het_test_p_value")?,
-        idx("outcome")?,
-        idx("status")?,
-        idx("message")?,
-    );
-    let mut rows = Vec::new();
-    for (i, record) in reader.records().enumerate() {
-        let r = record.map_err(|e| format!("{}: row {}: {e}", path.display(), i + 1))?;
-        let f = |c: usize| r.get(c).and_then(|v| v.parse::<f64>().ok());
-        let u = |c: usize| r.get(c).and_then(|v| v.parse::<u64>().ok());
-        let s = |c: usize| r.get(c).unwrap_or("").to_string();
-        let choices: Vec<String> = (1..errors_col).map(s).collect();
-        let kept = keep.iter().all(|(d, o)| {
-            dim_names
-                .iter()
-                .position(|n| n == d)
-                .is_none_or(|k| &choices[k] == o)
-        });
-        if !kept {
-            continue;
-        }
-        rows.push(ResultRow {
-            model_id: s(0),
-            choices,
-            errors: s(errors_col),
-            term: s(term),
-            estimate: f(est),
-            std_error: f(se),
-            df: f(df),
-            n_obs: u(n_obs),
-            n_params: u(n_params),
-            r_squared: f(r2),
-            resid_sd: f(sd),
-            het_test_p_value: f(het),
-            outcome: s(outcome),
-            status: s(status),
-            message: s(message),
-        });
-    }
+    let (dim_names, rows) = models_csv::read_models_csv(&results, &keep)?;
     let dims = dimensions_from_rows(&dim_names, &rows);
     let header = ReportHeader {
         title,

@@ -16,6 +16,12 @@
 //!    strings: [`Report::summary_json`], [`Report::terminal`], [`Report::html`],
 //!    [`Report::markdown`], [`Report::latex`]). The same input always gives the same bytes.
 //!
+//! Mapping the planner's transforms (crates/specgrid-study/src/plan.rs) to [`FocusForm`]:
+//! `Level` → `Level`, `Log` → `Log`, `Log1p` → `Log1p`, `Asinh` → `Asinh`, a focus form with
+//! terms x, x², …, x^d (`Level` then `Power(2..=d)`) → `Polynomial(d)`, `Standardize` →
+//! `Standardized`, `Winsorize` → `Winsorized`. An interaction passed as `interaction` must be the
+//! product of the **raw** focus column with the moderator (as in the demo's `visits × irrigated`).
+//!
 //! The crate never reads data files and does not depend on polars or faer.
 
 #![warn(missing_docs)]
