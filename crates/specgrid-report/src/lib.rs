@@ -28,6 +28,7 @@
 
 mod aggregate;
 mod effect;
+mod effects_csv;
 mod html;
 mod input;
 mod latex;
@@ -46,6 +47,7 @@ pub use effect::{
     effect, Derived, Effect, EffectError, EffectInputs, EvaluationPoint, FocusForm, OutcomeForm,
     Scale,
 };
+pub use effects_csv::EFFECTS_COLUMNS;
 pub use input::{DimensionInfo, ModelEntry, ModelStatus, ReportInput};
 pub use rows::{dimensions_from_rows, ReportHeader, ResultRow};
 pub use summary::*;
@@ -84,7 +86,13 @@ pub struct Report {
 }
 
 /// File names [`Report::write_all`] writes, in order.
-pub const OUTPUT_FILES: [&str; 4] = ["summary.json", "report.html", "report.md", "appendix.tex"];
+pub const OUTPUT_FILES: [&str; 5] = [
+    "summary.json",
+    "effects.csv",
+    "report.html",
+    "report.md",
+    "appendix.tex",
+];
 
 impl Report {
     /// Checks the input and computes the aggregates.
@@ -100,6 +108,12 @@ impl Report {
             .unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"));
         s.push('\n');
         s
+    }
+
+    /// `effects.csv`: one row per model and covariance choice with the effect, its interval and
+    /// p-value, and the derived quantities with their SEs (columns: [`EFFECTS_COLUMNS`]).
+    pub fn effects_csv(&self) -> String {
+        effects_csv::render(self)
     }
 
     /// The compact terminal summary.
@@ -127,6 +141,7 @@ impl Report {
     pub fn write_all(&self, dir: &Path) -> Result<(), ReportError> {
         let contents = [
             self.summary_json(),
+            self.effects_csv(),
             self.html(),
             self.markdown(),
             self.latex(),

@@ -43,6 +43,7 @@ fn golden(name: &str, actual: &str) {
 fn small_grid_outputs_match_golden_files() {
     let report = Report::build(common::small_grid()).unwrap();
     golden("small.summary.json", &report.summary_json());
+    golden("small.effects.csv", &report.effects_csv());
     golden("small.terminal.txt", &report.terminal());
     golden("small.report.html", &report.html());
     golden("small.report.md", &report.markdown());
@@ -125,7 +126,13 @@ fn write_all_writes_every_file_and_no_partials() {
     names.sort();
     assert_eq!(
         names,
-        ["appendix.tex", "report.html", "report.md", "summary.json"]
+        [
+            "appendix.tex",
+            "effects.csv",
+            "report.html",
+            "report.md",
+            "summary.json"
+        ]
     );
     assert_eq!(
         std::fs::read_to_string(dir.path().join("summary.json")).unwrap(),
@@ -146,4 +153,44 @@ fn write_into_a_missing_folder_is_a_clear_error() {
         text.contains("summary.json") && text.contains("writable"),
         "{text}"
     );
+}
+
+#[test]
+fn effects_csv_carries_turning_points_per_model() {
+    use specgrid_report::{effect, EffectInputs, EvaluationPoint, FocusForm, OutcomeForm, Scale};
+    // Wooldridge Example 6.2 numbers (see tests/effects.rs): turning point 24.42622950819672.
+    let cov = vec![vec![4e-4, -1e-6], vec![-1e-6, 1e-8]];
+    let quadratic = effect(
+        &EffectInputs {
+            outcome: OutcomeForm::Level,
+            focus: FocusForm::Polynomial(2),
+            coefficients: &[0.298, -0.0061],
+            interaction: None,
+            std_errors: &[0.02, 1e-4],
+            covariance: Some(&cov),
+            at: EvaluationPoint {
+                focus: 10.0,
+                outcome: 6.0,
+                focus_sd: None,
+                moderator: None,
+            },
+            df: 523.0,
+        },
+        Scale::MarginalEffect,
+    )
+    .unwrap();
+    let mut input = common::small_grid();
+    input.models[0].effects[0] = Some(quadratic);
+    let csv = Report::build(input).unwrap().effects_csv();
+    let first = csv.lines().nth(1).unwrap();
+    let cells: Vec<&str> = first.split(',').collect();
+    assert_eq!(cells[0], "m1");
+    assert_eq!(cells[1], "classical");
+    assert_eq!(cells[2].parse::<f64>().unwrap(), 0.176);
+    assert_eq!(cells[10].parse::<f64>().unwrap(), 24.42622950819672);
+    assert!((cells[11].parse::<f64>().unwrap() - 1.4803213093883163).abs() < 1e-9);
+    // No proportional change for a level outcome.
+    assert_eq!(cells[8], "");
+    // Failed model m5 has no rows; 4 models × 2 choices + header.
+    assert_eq!(csv.lines().count(), 9);
 }
