@@ -3,7 +3,16 @@
 
 use crate::aggregate::baseline_index;
 use crate::svg::{group, nice_ticks, points};
-use crate::text::{count, num, pct, tex_escape as esc};
+use crate::text::{count, num as plain_num, pct, tex_escape as esc};
+
+/// A number for LaTeX text: a leading minus becomes a math minus sign.
+fn num(v: Option<f64>, sig: usize) -> String {
+    let s = plain_num(v, sig);
+    match s.strip_prefix('-') {
+        Some(rest) => format!("$-${rest}"),
+        None => s.replace('–', "--"),
+    }
+}
 use crate::Report;
 
 /// At most this many marks in the TikZ curve, so the file stays small enough to compile fast.

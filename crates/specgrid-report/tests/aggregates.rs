@@ -49,7 +49,8 @@ fn shares_quantiles_and_extremes() {
     assert_eq!(c.share_significant_positive, Some(0.75));
     assert_eq!(c.share_significant_negative, Some(0.25));
     // Definition 7: median h = 1.5 → 1 + 0.5·(2 − 1) = 1.5; Q1 h = 0.75 → −1 + 0.75·2 = 0.5;
-    // Q3 h = 2.25 → 2 + 0.25·1 = 2.25 (numpy.percentile gives the same).
+    // Q3 h = 2.25 → 2 + 0.25·1 = 2.25; numpy.percentile([-1, 1, 2, 3], [25, 50, 75]) gives
+    // [0.5, 1.5, 2.25] (run with numpy from the reference venv).
     assert_relative_eq!(c.median.unwrap(), 1.5);
     assert_relative_eq!(c.quartile_1.unwrap(), 0.5);
     assert_relative_eq!(c.quartile_3.unwrap(), 2.25);
