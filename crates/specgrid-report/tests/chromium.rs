@@ -53,6 +53,7 @@ fn report_opens_in_headless_chromium_without_console_errors() {
     for (name, input) in [
         ("small", common::small_grid()),
         ("grouped", common::big_grid(4)),
+        ("huge", common::big_grid(10)),
     ] {
         let html = dir.path().join(format!("{name}.html"));
         std::fs::write(&html, Report::build(input).unwrap().html()).unwrap();
