@@ -1,8 +1,6 @@
 //! `effects.csv`: every model's effect under every covariance choice, with its interval, p-value
 //! and the derived quantities (exp(b) − 1, turning point) and their delta-method SEs.
 
-use statrs::distribution::{ContinuousCDF, StudentsT};
-
 use crate::stats::two_sided_p;
 use crate::Report;
 
@@ -43,9 +41,7 @@ pub fn render(report: &Report) -> String {
             let Some(f) = m.effects[e] else { continue };
             let se = f.std_error.filter(|s| s.is_finite() && *s > 0.0);
             let half = se.map(|s| {
-                let q = StudentsT::new(0.0, 1.0, f.df)
-                    .map(|t| t.inverse_cdf(0.5 + input.confidence_level / 2.0))
-                    .unwrap_or(1.959963984540054);
+                let q = crate::stats::interval_multiplier(input.confidence_level, f.df);
                 q * s
             });
             rows.push(vec![

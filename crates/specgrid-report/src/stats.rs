@@ -49,3 +49,30 @@ pub fn two_sided_p(t: f64, df: f64) -> f64 {
 pub fn standard_normal_cdf(x: f64) -> f64 {
     Normal::standard().cdf(x)
 }
+
+/// Half-width multiplier of a two-sided interval at `level`: the Student t quantile with `df`
+/// degrees of freedom, or the standard normal one when `df` is not a finite positive number.
+pub fn interval_multiplier(level: f64, df: f64) -> f64 {
+    let p = 0.5 + level / 2.0;
+    if df.is_finite() && df > 0.0 {
+        if let Ok(t) = StudentsT::new(0.0, 1.0, df) {
+            return t.inverse_cdf(p);
+        }
+    }
+    Normal::standard().inverse_cdf(p)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn multipliers_match_scipy() {
+        // scipy.stats.t.ppf(0.975, 100) = 1.9839715185235518 and norm.ppf(0.975) =
+        // 1.959963984540054 (run with scipy from the reference venv).
+        assert!((interval_multiplier(0.95, 100.0) - 1.9839715185235518).abs() < 1e-9);
+        assert!((interval_multiplier(0.95, f64::INFINITY) - 1.959963984540054).abs() < 1e-9);
+        // 2 * scipy.stats.t.sf(4, 100) = 0.00012152364430076177.
+        assert!((two_sided_p(4.0, 100.0) - 0.00012152364430076177).abs() < 1e-12);
+    }
+}

@@ -4,8 +4,6 @@
 //! figures read in greyscale; the two colours are from the Okabe–Ito palette, which stays
 //! distinct for the common forms of colour blindness.
 
-use statrs::distribution::{ContinuousCDF, StudentsT};
-
 use crate::aggregate::{baseline_index, significance};
 use crate::text::{html_escape as esc, num};
 use crate::Report;
@@ -92,9 +90,7 @@ pub(crate) fn points(report: &Report) -> Vec<Point> {
                 return None;
             }
             let half = f.std_error.filter(|s| s.is_finite() && *s > 0.0).map(|se| {
-                let q = StudentsT::new(0.0, 1.0, f.df)
-                    .map(|t| t.inverse_cdf(0.5 + level / 2.0))
-                    .unwrap_or(1.959963984540054);
+                let q = crate::stats::interval_multiplier(level, f.df);
                 q * se
             });
             Some(Point {
