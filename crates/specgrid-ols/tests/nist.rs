@@ -197,16 +197,22 @@ fn near_singular_polynomials_are_right_or_refused() {
     assert!(refused > 0, "no case was refused");
 }
 
-/// Returns how many of the four fits (two routes × two limits) were refused.
-fn polynomial_case(xs: &[f64], d: usize) -> usize {
+/// Columns x^0..x^d and outcome y = Σ_j x^j.
+fn polynomial_design(xs: &[f64], d: usize) -> Design {
     let n = xs.len();
-    let design = Design {
+    Design {
         x: Mat::from_fn(n, d + 1, |i, j| xs[i].powi(j as i32)),
         y: Mat::from_fn(n, 1, |i, _| (0..=d).map(|j| xs[i].powi(j as i32)).sum()),
         x_names: (0..=d).map(|j| format!("x^{j}")).collect(),
         y_names: vec!["y".into()],
         clusters: vec![],
-    };
+    }
+}
+
+/// Returns how many of the four fits (two routes × two limits) were refused.
+fn polynomial_case(xs: &[f64], d: usize) -> usize {
+    let n = xs.len();
+    let design = polynomial_design(xs, d);
     let model = full_model(&design);
     let mut refused = 0;
     for limit in [FitOptions::default().condition_limit, 1e18] {
@@ -266,16 +272,8 @@ fn polynomial_case(xs: &[f64], d: usize) -> usize {
 /// coefficient must come out right to LRE ≥ 9 on both routes.
 #[test]
 fn many_row_polynomial_is_refined_by_the_bound() {
-    let n = 20_000;
-    let d = 3;
-    let xs: Vec<f64> = (0..n).map(|i| i as f64).collect();
-    let design = Design {
-        x: Mat::from_fn(n, d + 1, |i, j| xs[i].powi(j as i32)),
-        y: Mat::from_fn(n, 1, |i, _| (0..=d).map(|j| xs[i].powi(j as i32)).sum()),
-        x_names: (0..=d).map(|j| format!("x^{j}")).collect(),
-        y_names: vec!["y".into()],
-        clusters: vec![],
-    };
+    let xs: Vec<f64> = (0..20_000).map(|i| i as f64).collect();
+    let design = polynomial_design(&xs, 3);
     let model = full_model(&design);
     let opts = FitOptions::default();
     let fits = [
