@@ -136,8 +136,9 @@ impl Report {
         latex::render(self)
     }
 
-    /// Writes [`OUTPUT_FILES`] into `dir`. Every file is first written beside its final name
-    /// and renamed into place, so a failure never leaves a half-written file.
+    /// Writes [`OUTPUT_FILES`] into `dir`. All files are first written beside their final names
+    /// and renamed into place only when every one is complete, so a failure never leaves a
+    /// half-written file or a mix of old and new files from a failed write.
     pub fn write_all(&self, dir: &Path) -> Result<(), ReportError> {
         let contents = [
             self.summary_json(),
@@ -146,15 +147,24 @@ impl Report {
             self.markdown(),
             self.latex(),
         ];
-        for (name, text) in OUTPUT_FILES.iter().zip(contents) {
-            let target = dir.join(name);
-            let staging = dir.join(format!(".{name}.partial"));
-            let fail = |source| ReportError::Write {
-                path: target.display().to_string(),
-                source,
-            };
-            std::fs::write(&staging, text).map_err(fail)?;
-            std::fs::rename(&staging, &target).map_err(fail)?;
+        let staged: Vec<(std::path::PathBuf, std::path::PathBuf)> = OUTPUT_FILES
+            .iter()
+            .map(|name| (dir.join(format!(".{name}.partial")), dir.join(name)))
+            .collect();
+        let fail = |path: &Path, source| ReportError::Write {
+            path: path.display().to_string(),
+            source,
+        };
+        for ((partial, target), text) in staged.iter().zip(contents) {
+            if let Err(e) = std::fs::write(partial, text) {
+                for (p, _) in &staged {
+                    let _ = std::fs::remove_file(p);
+                }
+                return Err(fail(target, e));
+            }
+        }
+        for (partial, target) in &staged {
+            std::fs::rename(partial, target).map_err(|e| fail(target, e))?;
         }
         Ok(())
     }
