@@ -2,7 +2,7 @@
 //! into a paper (needs `\usepackage{tikz}`; no PDF or image files).
 
 use crate::aggregate::baseline_index;
-use crate::svg::{group, nice_ticks, points};
+use crate::curve::{group, nice_ticks, points};
 use crate::text::{count, num as plain_num, pct, tex_escape as esc};
 
 /// A number for LaTeX text: a leading minus becomes a math minus sign.

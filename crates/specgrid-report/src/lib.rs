@@ -27,6 +27,7 @@
 #![warn(missing_docs)]
 
 mod aggregate;
+mod curve;
 mod effect;
 mod effects_csv;
 mod html;

@@ -1,0 +1,129 @@
+//! The specification curve's data: every model sorted by effect, and groups of neighbouring
+//! models when there are too many to draw one by one. Shared by the SVG and TikZ renderers.
+
+use crate::aggregate::significance;
+use crate::Report;
+
+/// One model as drawn: estimate, band, significance, choices.
+pub(crate) struct Point {
+    pub(crate) estimate: f64,
+    pub(crate) low: Option<f64>,
+    pub(crate) high: Option<f64>,
+    pub(crate) significant: Option<bool>,
+    pub(crate) choices: Vec<usize>,
+    pub(crate) model: usize,
+}
+
+/// A group of neighbouring models drawn as one mark.
+pub(crate) struct Mark {
+    pub(crate) estimate: f64,
+    pub(crate) est_low: f64,
+    pub(crate) est_high: f64,
+    pub(crate) low: Option<f64>,
+    pub(crate) high: Option<f64>,
+    pub(crate) share_significant: f64,
+    pub(crate) share_known: bool,
+    pub(crate) has_baseline: bool,
+    /// Per dimension, per option: share of the group's models taking it.
+    pub(crate) option_shares: Vec<Vec<f64>>,
+}
+
+/// Round tick values covering [lo, hi] (about `n` of them), steps of 1, 2 or 5 × 10^k.
+pub(crate) fn nice_ticks(lo: f64, hi: f64, n: usize) -> Vec<f64> {
+    if hi.partial_cmp(&lo) != Some(std::cmp::Ordering::Greater)
+        || !lo.is_finite()
+        || !hi.is_finite()
+    {
+        return vec![lo];
+    }
+    let raw = (hi - lo) / n.max(1) as f64;
+    let mag = 10f64.powf(raw.log10().floor());
+    let step = [1.0, 2.0, 5.0, 10.0]
+        .iter()
+        .map(|m| m * mag)
+        .find(|s| *s >= raw)
+        .unwrap_or(10.0 * mag);
+    let start = (lo / step).ceil() as i64;
+    let end = (hi / step).floor() as i64;
+    (start..=end).map(|i| i as f64 * step).collect()
+}
+
+/// Every estimated model under the first covariance choice, sorted by effect (ties by id).
+pub(crate) fn points(report: &Report) -> Vec<Point> {
+    let input = &report.input;
+    let level = input.confidence_level;
+    let mut pts: Vec<Point> = input
+        .models
+        .iter()
+        .enumerate()
+        .filter_map(|(i, m)| {
+            let f = m.effects[0]?;
+            if !f.estimate.is_finite() {
+                return None;
+            }
+            let half = f.std_error.filter(|s| s.is_finite() && *s > 0.0).map(|se| {
+                let q = crate::stats::interval_multiplier(level, f.df);
+                q * se
+            });
+            Some(Point {
+                estimate: f.estimate,
+                low: half.map(|h| f.estimate - h),
+                high: half.map(|h| f.estimate + h),
+                significant: significance(&f, input.significance_level),
+                choices: m.choices.clone(),
+                model: i,
+            })
+        })
+        .collect();
+    pts.sort_by(|a, b| {
+        a.estimate.total_cmp(&b.estimate).then_with(|| {
+            input.models[a.model]
+                .model_id
+                .cmp(&input.models[b.model].model_id)
+        })
+    });
+    pts
+}
+
+/// At most `max_marks` groups of neighbouring sorted models (one model per group when few).
+pub(crate) fn group(
+    report: &Report,
+    pts: &[Point],
+    baseline: Option<usize>,
+    max_marks: usize,
+) -> Vec<Mark> {
+    let n = pts.len();
+    let groups = n.min(max_marks).max(1);
+    let dims = &report.input.dimensions;
+    (0..groups)
+        .filter_map(|g| {
+            let (a, b) = (g * n / groups, (g + 1) * n / groups);
+            let members = &pts[a..b];
+            if members.is_empty() {
+                return None;
+            }
+            let mut option_shares: Vec<Vec<f64>> =
+                dims.iter().map(|d| vec![0.0; d.options.len()]).collect();
+            for p in members {
+                for (d, &c) in p.choices.iter().enumerate() {
+                    option_shares[d][c] += 1.0 / members.len() as f64;
+                }
+            }
+            let known: Vec<bool> = members.iter().filter_map(|p| p.significant).collect();
+            let lows: Vec<f64> = members.iter().filter_map(|p| p.low).collect();
+            let highs: Vec<f64> = members.iter().filter_map(|p| p.high).collect();
+            Some(Mark {
+                estimate: members[members.len() / 2].estimate,
+                est_low: members[0].estimate,
+                est_high: members[members.len() - 1].estimate,
+                low: lows.iter().cloned().reduce(f64::min),
+                high: highs.iter().cloned().reduce(f64::max),
+                share_significant: known.iter().filter(|s| **s).count() as f64
+                    / known.len().max(1) as f64,
+                share_known: !known.is_empty(),
+                has_baseline: members.iter().any(|p| Some(p.model) == baseline),
+                option_shares,
+            })
+        })
+        .collect()
+}
