@@ -10,7 +10,7 @@ use specgrid_study::{ErrorChoice, Plan, PlannedModel, RowPolicy, Term};
 
 use crate::atoms::{push_unique, term_atoms, validity_class, Atom};
 use crate::column::Levels;
-use crate::error::{fmt_count, DataError, DataWarning};
+use crate::error::{fmt_rows, DataError, DataWarning};
 use crate::expand::{Expander, NamedColumn};
 use crate::loaded::LoadedData;
 use crate::needs::cluster_columns;
@@ -233,29 +233,14 @@ pub fn assemble(plan: &Plan, data: &LoadedData) -> Result<Assembly, DataError> {
                 atoms: (0..all_atoms.len()).collect(),
                 mask: valid.mask(&in_sample, 0..all_atoms.len()),
             }],
-            RowPolicy::PerModel => {
-                let mut groups: Vec<Group> = Vec::new();
-                for &m in &models {
-                    let model = &plan.models[m];
-                    let atoms = model_atoms(plan, model, &all_atoms, &cluster_atoms)?;
-                    let mask = valid.mask(&in_sample, atoms.iter().copied());
-                    match groups.iter_mut().find(|g| g.mask == mask) {
-                        Some(g) => g.add(model, m, atoms),
-                        None => {
-                            let mut g = Group {
-                                models: Vec::new(),
-                                terms: Vec::new(),
-                                outcomes: Vec::new(),
-                                atoms: Vec::new(),
-                                mask,
-                            };
-                            g.add(model, m, atoms);
-                            groups.push(g);
-                        }
-                    }
-                }
-                groups
-            }
+            RowPolicy::PerModel => per_model_groups(
+                plan,
+                &models,
+                &all_atoms,
+                &cluster_atoms,
+                &valid,
+                &in_sample,
+            )?,
         };
         for group in groups {
             let context = DesignContext {
@@ -298,6 +283,46 @@ fn outcome_atom(column: &str, transform: &specgrid_study::Transform) -> Atom {
         column: column.to_string(),
         transform: validity_class(transform),
     }
+}
+
+/// Groups a sample's models by the rows they can use. Models with the same atoms share a row set
+/// without comparing masks; distinct atom sets whose masks coincide are merged afterwards.
+fn per_model_groups(
+    plan: &Plan,
+    models: &[usize],
+    all_atoms: &[Atom],
+    cluster_atoms: &[Atom],
+    valid: &AtomRows,
+    in_sample: &[bool],
+) -> Result<Vec<Group>, DataError> {
+    let mut groups: Vec<Group> = Vec::new();
+    let mut by_atoms: HashMap<Vec<usize>, usize> = HashMap::new();
+    let mut by_mask: HashMap<Vec<bool>, usize> = HashMap::new();
+    for &m in models {
+        let model = &plan.models[m];
+        let mut atoms = model_atoms(plan, model, all_atoms, cluster_atoms)?;
+        atoms.sort_unstable();
+        let g = match by_atoms.get(&atoms) {
+            Some(&g) => g,
+            None => {
+                let mask = valid.mask(in_sample, atoms.iter().copied());
+                let g = *by_mask.entry(mask.clone()).or_insert_with(|| {
+                    groups.push(Group {
+                        models: Vec::new(),
+                        terms: Vec::new(),
+                        outcomes: Vec::new(),
+                        atoms: Vec::new(),
+                        mask,
+                    });
+                    groups.len() - 1
+                });
+                by_atoms.insert(atoms.clone(), g);
+                g
+            }
+        };
+        groups[g].add(model, m, atoms);
+    }
+    Ok(groups)
 }
 
 /// Indices into `all_atoms` of one model's atoms: outcome, terms and cluster columns.
@@ -717,18 +742,18 @@ fn empty_reason(rows_in_sample: usize, dropped: &[DropCount]) -> String {
         .filter_map(|d| match &d.reason {
             DropReason::SampleConditions => None,
             DropReason::Missing { column } => {
-                Some(format!("`{column}` missing in {} rows", fmt_count(d.rows)))
+                Some(format!("`{column}` missing in {}", fmt_rows(d.rows)))
             }
             DropReason::Undefined { term, rule, .. } => Some(format!(
-                "{term} undefined in {} rows with {rule}",
-                fmt_count(d.rows)
+                "{term} undefined in {} with {rule}",
+                fmt_rows(d.rows)
             )),
         })
         .collect();
     parts.truncate(4);
     format!(
-        "all {} rows meeting its conditions have a missing or undefined value: {}",
-        fmt_count(rows_in_sample),
+        "all {} meeting its conditions have a missing or undefined value: {}",
+        fmt_rows(rows_in_sample),
         parts.join("; ")
     )
 }

@@ -9,12 +9,21 @@ pub fn fmt_count(n: usize) -> String {
     let digits = n.to_string();
     let mut out = String::with_capacity(digits.len() + digits.len() / 3);
     for (i, ch) in digits.chars().enumerate() {
-        if i > 0 && (digits.len() - i) % 3 == 0 {
+        if i > 0 && (digits.len() - i).is_multiple_of(3) {
             out.push(',');
         }
         out.push(ch);
     }
     out
+}
+
+/// A row count with its noun: `1 row`, `2,345 rows`.
+pub fn fmt_rows(n: usize) -> String {
+    if n == 1 {
+        "1 row".to_string()
+    } else {
+        format!("{} rows", fmt_count(n))
+    }
 }
 
 /// Where a row sits in the file, for messages: data rows are counted from 1; for CSV the file
@@ -69,7 +78,7 @@ pub enum DataError {
         hint: String,
     },
     /// A column the file stores in a type the data layer does not handle.
-    #[error("{}: column `{column}` has type {dtype}, which specgrid cannot use ({} rows); store it as numbers or text", path.display(), fmt_count(*rows))]
+    #[error("{}: column `{column}` has type {dtype}, which specgrid cannot use ({}); store it as numbers or text", path.display(), fmt_rows(*rows))]
     UnsupportedType {
         /// The data file.
         path: PathBuf,
@@ -81,7 +90,7 @@ pub enum DataError {
         rows: usize,
     },
     /// A column used as a number holds cells that are not numbers.
-    #[error("{}: column `{column}` is used as a number but {} rows hold text that is not a number, first at {first} (`{value}`); fix or blank out those cells (blank and `NA` count as missing)", path.display(), fmt_count(*rows))]
+    #[error("{}: column `{column}` is used as a number but holds text that is not a number in {}, first at {first} (`{value}`); fix or blank out those cells (blank and `NA` count as missing)", path.display(), fmt_rows(*rows))]
     NonNumeric {
         /// The data file.
         path: PathBuf,
@@ -95,7 +104,7 @@ pub enum DataError {
         value: String,
     },
     /// A column used as a number holds infinite values.
-    #[error("{}: column `{column}` holds infinite values in {} rows, first at {first}; replace them with finite numbers or blank cells", path.display(), fmt_count(*rows))]
+    #[error("{}: column `{column}` holds infinite values in {}, first at {first}; replace them with finite numbers or blank cells", path.display(), fmt_rows(*rows))]
     Infinite {
         /// The data file.
         path: PathBuf,
@@ -129,7 +138,7 @@ pub enum DataError {
         reason: String,
     },
     /// An outcome form is constant over the rows of a sample.
-    #[error("{}: outcome `{outcome}` (column `{column}`) has no variance over the {} rows of sample `{sample}` (every value is {value}); choose another outcome or sample", path.display(), fmt_count(*rows))]
+    #[error("{}: outcome `{outcome}` (column `{column}`) has no variance over the {} of sample `{sample}` (every value is {value}); choose another outcome or sample", path.display(), fmt_rows(*rows))]
     NoOutcomeVariance {
         /// The data file.
         path: PathBuf,
@@ -145,7 +154,7 @@ pub enum DataError {
         value: f64,
     },
     /// A standardized term is constant over the rows of a sample, so it cannot be scaled.
-    #[error("{}: `{term}` cannot be standardized: column `{column}` is constant over the {} rows of sample `{sample}`; use the plain level or another sample", path.display(), fmt_count(*rows))]
+    #[error("{}: `{term}` cannot be standardized: column `{column}` is constant over the {} of sample `{sample}`; use the plain level or another sample", path.display(), fmt_rows(*rows))]
     NoVarianceToStandardize {
         /// The data file.
         path: PathBuf,
@@ -159,7 +168,7 @@ pub enum DataError {
         rows: usize,
     },
     /// A transform produced an infinite value (e.g. a large power overflowing).
-    #[error("{}: `{term}` (column `{column}`) gives a non-finite value in {} rows of sample `{sample}`, first at {first}; use a smaller power or rescale the column", path.display(), fmt_count(*rows))]
+    #[error("{}: `{term}` (column `{column}`) gives a non-finite value in {} of sample `{sample}`, first at {first}; use a smaller power or rescale the column", path.display(), fmt_rows(*rows))]
     NonFiniteResult {
         /// The data file.
         path: PathBuf,
@@ -175,7 +184,7 @@ pub enum DataError {
         first: RowPosition,
     },
     /// A categorical's named reference level is not one of its levels in the sample.
-    #[error("{}: reference level `{level}` of column `{column}` does not occur in the {} rows of sample `{sample}`; levels there: {levels}", path.display(), fmt_count(*rows))]
+    #[error("{}: reference level `{level}` of column `{column}` does not occur in the {} of sample `{sample}`; levels there: {levels}", path.display(), fmt_rows(*rows))]
     UnknownReference {
         /// The data file.
         path: PathBuf,
@@ -191,7 +200,7 @@ pub enum DataError {
         levels: String,
     },
     /// A tracked (focus) categorical has a single level in the sample, so it has no coefficient.
-    #[error("{}: the focus column `{column}` has the single level `{level}` in all {} rows of sample `{sample}`, so its effect cannot be estimated; choose another sample or focus", path.display(), fmt_count(*rows))]
+    #[error("{}: the focus column `{column}` has the single level `{level}` in all {} of sample `{sample}`, so its effect cannot be estimated; choose another sample or focus", path.display(), fmt_rows(*rows))]
     SingleLevelFocus {
         /// The data file.
         path: PathBuf,
@@ -205,7 +214,7 @@ pub enum DataError {
         rows: usize,
     },
     /// Fewer rows than the largest model has coefficients.
-    #[error("{}: sample `{sample}` keeps {} rows but its largest model has {columns} coefficients (columns {names}); use fewer controls or a wider sample", path.display(), fmt_count(*rows))]
+    #[error("{}: sample `{sample}` keeps {} but its largest model has {columns} coefficients (columns {names}); use fewer controls or a wider sample", path.display(), fmt_rows(*rows))]
     TooFewRows {
         /// The data file.
         path: PathBuf,
@@ -280,8 +289,8 @@ impl fmt::Display for DataWarning {
                 ..
             } => write!(
                 f,
-                "sample `{sample}`: {term} is undefined for {} rows with {rule}; those rows are dropped; consider {suggestion}",
-                fmt_count(*rows)
+                "sample `{sample}`: {term} is undefined for {} with {rule}; those rows are dropped; consider {suggestion}",
+                fmt_rows(*rows)
             ),
             DataWarning::MissingValues {
                 sample,
@@ -289,8 +298,8 @@ impl fmt::Display for DataWarning {
                 rows,
             } => write!(
                 f,
-                "sample `{sample}`: column `{column}` is missing in {} rows; those rows are dropped",
-                fmt_count(*rows)
+                "sample `{sample}`: column `{column}` is missing in {}; those rows are dropped",
+                fmt_rows(*rows)
             ),
             DataWarning::SingleLevel {
                 sample,
@@ -299,8 +308,8 @@ impl fmt::Display for DataWarning {
                 rows,
             } => write!(
                 f,
-                "sample `{sample}`: categorical column `{column}` has the single level `{level}` in all {} rows; it adds no columns there",
-                fmt_count(*rows)
+                "sample `{sample}`: categorical column `{column}` has the single level `{level}` in all {}; it adds no columns there",
+                fmt_rows(*rows)
             ),
         }
     }

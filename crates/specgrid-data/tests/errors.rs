@@ -295,11 +295,10 @@ fn malformed_files_are_errors() {
 
     let path = write(dir.path(), "ragged.csv", "yield_t,area_ha\n1,2\n3,4,5,6\n");
     let plan = simple_plan(&path, "yield_t", vec![num("area_ha", Transform::Level)]);
-    let result = load(&plan);
-    // A ragged CSV is either refused with a clear error or read with the header's columns.
-    if let Err(err) = result {
-        assert!(err.to_string().contains("ragged.csv"), "{err}");
-    }
+    let err = load(&plan).unwrap_err();
+    assert!(matches!(err, DataError::Unreadable { .. }), "{err:?}");
+    let m = err.to_string();
+    assert!(m.contains("ragged.csv") && m.contains("CSV"), "{m}");
 }
 
 #[test]
@@ -312,4 +311,15 @@ fn empty_file_is_an_error() {
         m.contains("keeps 0 of 0 rows") && m.contains("no data rows"),
         "{m}"
     );
+}
+
+#[test]
+fn counts_read_with_thousands_separators() {
+    use specgrid_data::error::{fmt_count, fmt_rows};
+    assert_eq!(fmt_count(0), "0");
+    assert_eq!(fmt_count(999), "999");
+    assert_eq!(fmt_count(2345), "2,345");
+    assert_eq!(fmt_count(1234567), "1,234,567");
+    assert_eq!(fmt_rows(1), "1 row");
+    assert_eq!(fmt_rows(2345), "2,345 rows");
 }

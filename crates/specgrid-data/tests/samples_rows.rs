@@ -155,7 +155,7 @@ fn shared_rows_use_one_row_set() {
     let text: Vec<String> = a.warnings.iter().map(|w| w.to_string()).collect();
     assert!(
         text.iter().any(|t| t.contains(
-            "log(visits) is undefined for 1 rows with visits ≤ 0; those rows are dropped; consider log1p or asinh"
+            "log(visits) is undefined for 1 row with visits ≤ 0; those rows are dropped; consider log1p or asinh"
         )),
         "{text:?}"
     );
@@ -227,4 +227,31 @@ fn cluster_codes_follow_error_choices() {
             second: 0
         })
     );
+}
+
+#[test]
+fn per_model_merges_different_columns_with_equal_rows() {
+    // log(area_ha) and area_ha are valid on the same rows (area is positive where present), so
+    // their models share one design even though their columns differ.
+    let dir = tempfile::tempdir().unwrap();
+    let path = write(dir.path(), "o.csv", CSV);
+    let mut plan = plan(
+        &path,
+        vec![outcome("yield_t", Transform::Level)],
+        vec![
+            num("area_ha", Transform::Log),
+            num("area_ha", Transform::Level),
+        ],
+        vec![sample("all", Vec::new())],
+        vec![model(0, 0, vec![0]), model(0, 0, vec![1])],
+    );
+    plan.row_policy = RowPolicy::PerModel;
+    let a = assemble(&plan, &load(&plan).unwrap()).unwrap();
+    assert_eq!(a.designs.len(), 1);
+    assert_eq!(a.designs[0].models, vec![0, 1]);
+    assert_eq!(
+        a.designs[0].design.x_names,
+        vec!["(intercept)", "log(area_ha)", "area_ha"]
+    );
+    assert_eq!(a.designs[0].rows, vec![0, 1, 2, 3, 5, 6, 7]);
 }
