@@ -45,7 +45,7 @@ pub fn read_models_csv(
     );
     let (het, outcome, status, message) = (
         idx("het_test_p_value")?,
-        idx("outcome")?,
+        idx("outcome_term")?,
         idx("status")?,
         idx("message")?,
     );
