@@ -30,9 +30,9 @@ fn the_orchard_study_plans_to_its_documented_size() {
     assert_eq!(p.errors.len(), 5);
     assert!(p.errors.contains(&ErrorChoice::TwoWayCluster {
         first: "village".into(),
-        second: "season".into()
+        second: "variety".into()
     }));
-    assert_eq!(p.cluster_columns(), ["village", "season"]);
+    assert_eq!(p.cluster_columns(), ["village", "variety"]);
     // The interaction is tracked in the models that include it, and only there.
     let interaction = p
         .terms

@@ -54,7 +54,8 @@ pub(crate) fn read_errors(r: &mut Reader<'_>, value: Option<&Val<'_>>) -> Option
     };
     let significance = match t.get("significance") {
         Some(v) => level(r, v, "`significance` in [errors]", "e.g. 0.05"),
-        None => confidence.map(|c| 1.0 - c),
+        // Rounded to 12 decimals so 1 − 0.95 reads 0.05, not 0.050000000000000044.
+        None => confidence.map(|c| ((1.0 - c) * 1e12).round() / 1e12),
     };
     if r.problem_count() != before {
         return None;

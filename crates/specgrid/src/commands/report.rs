@@ -1,0 +1,150 @@
+//! The robustness report: built after `run`, and re-rendered from a results folder by
+//! `specgrid report DIR` without re-estimating. What the folder must hold to re-render is in
+//! `run.json` (written by `run`) and `models.parquet`.
+
+use std::fs;
+use std::path::Path;
+
+use polars::prelude::*;
+use serde::{Deserialize, Serialize};
+use specgrid_report::{DimensionInfo, Report, ReportHeader, ReportInput, ResultRow};
+
+use crate::exit::Failure;
+use crate::results::FIXED_COLUMNS;
+
+/// What a results folder records about its run, for re-rendering the report.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct RunRecord {
+    /// Study title.
+    pub title: String,
+    /// Significance level of the summaries.
+    pub significance_level: f64,
+    /// Confidence level of the intervals.
+    pub confidence_level: f64,
+    /// The baseline model's id, when the grid contains it.
+    pub baseline_model_id: Option<String>,
+    /// SHA-256 of the data file.
+    pub data_fingerprint: String,
+    /// Decision dimensions with their options, in study order.
+    pub dimensions: Vec<(String, Vec<String>)>,
+}
+
+/// Builds the report from result rows, writes its files into `dir` and returns the terminal
+/// summary.
+pub fn render(
+    record: &RunRecord,
+    study_text: String,
+    rows: &[ResultRow],
+    dir: &Path,
+) -> Result<String, Failure> {
+    let header = ReportHeader {
+        title: record.title.clone(),
+        significance_level: record.significance_level,
+        confidence_level: record.confidence_level,
+        baseline_model_id: record.baseline_model_id.clone(),
+        study_text,
+        data_fingerprint: record.data_fingerprint.clone(),
+    };
+    let dimensions = record
+        .dimensions
+        .iter()
+        .map(|(name, options)| DimensionInfo {
+            name: name.clone(),
+            options: options.clone(),
+        })
+        .collect();
+    let input = ReportInput::from_rows(header, dimensions, rows)
+        .map_err(|e| Failure::Output(format!("cannot build the report: {e}")))?;
+    let report = Report::build(input)
+        .map_err(|e| Failure::Output(format!("cannot build the report: {e}")))?;
+    report
+        .write_all(dir)
+        .map_err(|e| Failure::Output(e.to_string()))?;
+    Ok(report.terminal())
+}
+
+/// `specgrid report DIR`: re-render the report files of a results folder in place.
+pub fn run(dir: &Path) -> Result<(), Failure> {
+    let record_path = dir.join("run.json");
+    let record: RunRecord =
+        serde_json::from_str(&fs::read_to_string(&record_path).map_err(|e| {
+            Failure::Data(format!(
+                "{}: {e}; is {} a specgrid results folder?",
+                record_path.display(),
+                dir.display()
+            ))
+        })?)
+        .map_err(|e| Failure::Data(format!("{}: {e}", record_path.display())))?;
+    let study_text = fs::read_to_string(dir.join("study.toml")).unwrap_or_default();
+    let rows = read_rows(&dir.join("models.parquet"), &record)?;
+    print!("{}", render(&record, study_text, &rows, dir)?);
+    Ok(())
+}
+
+/// Reads `models.parquet` back into report rows.
+fn read_rows(path: &Path, record: &RunRecord) -> Result<Vec<ResultRow>, Failure> {
+    let bad = |e: String| Failure::Data(format!("{}: {e}", path.display()));
+    let file = fs::File::open(path).map_err(|e| bad(e.to_string()))?;
+    let frame = ParquetReader::new(file)
+        .finish()
+        .map_err(|e| bad(e.to_string()))?;
+    let text = |name: &str| -> Result<Vec<String>, Failure> {
+        let c = frame.column(name).map_err(|e| bad(e.to_string()))?;
+        let c = c.cast(&DataType::String).map_err(|e| bad(e.to_string()))?;
+        Ok(c.str()
+            .map_err(|e| bad(e.to_string()))?
+            .iter()
+            .map(|v| v.unwrap_or("").to_string())
+            .collect())
+    };
+    let float = |name: &str| -> Result<Vec<Option<f64>>, Failure> {
+        let c = frame.column(name).map_err(|e| bad(e.to_string()))?;
+        let c = c.cast(&DataType::Float64).map_err(|e| bad(e.to_string()))?;
+        Ok(c.f64().map_err(|e| bad(e.to_string()))?.iter().collect())
+    };
+    let count = |name: &str| -> Result<Vec<Option<u64>>, Failure> {
+        let c = frame.column(name).map_err(|e| bad(e.to_string()))?;
+        let c = c.cast(&DataType::UInt64).map_err(|e| bad(e.to_string()))?;
+        Ok(c.u64().map_err(|e| bad(e.to_string()))?.iter().collect())
+    };
+    for (name, _) in &record.dimensions {
+        if FIXED_COLUMNS.contains(&name.as_str()) {
+            return Err(bad(format!(
+                "dimension `{name}` clashes with a results column"
+            )));
+        }
+    }
+    let choices: Vec<Vec<String>> = record
+        .dimensions
+        .iter()
+        .map(|(name, _)| text(name))
+        .collect::<Result<_, _>>()?;
+    let (ids, errors, terms) = (text("model_id")?, text("errors")?, text("term")?);
+    let (estimate, std_error, df) = (float("estimate")?, float("std_error")?, float("df")?);
+    let (n_obs, n_params) = (count("n_obs")?, count("n_params")?);
+    let (r2, resid_sd, het) = (
+        float("r_squared")?,
+        float("resid_sd")?,
+        float("het_test_p_value")?,
+    );
+    let (outcome, status, message) = (text("outcome_term")?, text("status")?, text("message")?);
+    Ok((0..frame.height())
+        .map(|i| ResultRow {
+            model_id: ids[i].clone(),
+            choices: choices.iter().map(|c| c[i].clone()).collect(),
+            errors: errors[i].clone(),
+            term: terms[i].clone(),
+            estimate: estimate[i],
+            std_error: std_error[i],
+            df: df[i],
+            n_obs: n_obs[i],
+            n_params: n_params[i],
+            r_squared: r2[i],
+            resid_sd: resid_sd[i],
+            het_test_p_value: het[i],
+            outcome: outcome[i].clone(),
+            status: status[i].clone(),
+            message: message[i].clone(),
+        })
+        .collect())
+}

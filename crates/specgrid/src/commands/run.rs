@@ -1,0 +1,296 @@
+//! `specgrid run`: plan, load, estimate every model, write the results folder atomically.
+
+use std::path::PathBuf;
+use std::time::Instant;
+
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
+use specgrid_data::{Assembly, SampleDesign};
+use specgrid_ols::{Covariance, FitOptions, ModelError, ModelFit, SharedFactor};
+
+use specgrid_study::Plan;
+
+use super::report::{self, RunRecord};
+use crate::exit::Failure;
+use crate::output::Staging;
+use crate::results::{write_csv, write_parquet, ModelStats, ResultsTable, TermValues};
+
+/// Everything `run` was asked to do.
+pub struct RunOptions {
+    /// Study file.
+    pub study: PathBuf,
+    /// Results folder.
+    pub out: PathBuf,
+    /// Write terms.csv with every coefficient.
+    pub all_terms: bool,
+    /// Worker threads.
+    pub threads: Option<usize>,
+    /// No progress bar.
+    pub quiet: bool,
+}
+
+/// One model's outcome: where it was fitted and what came back.
+struct Estimated<'a> {
+    design: &'a SampleDesign,
+    fit: Result<ModelFit, ModelError>,
+}
+
+/// Runs the whole study.
+pub fn run(options: &RunOptions) -> Result<(), Failure> {
+    let started = Instant::now();
+    if let Some(n) = options.threads {
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(n.max(1))
+            .build_global()
+            .map_err(|e| Failure::Estimation(format!("cannot start {n} worker threads: {e}")))?;
+    }
+    let plan = super::load_plan(&options.study)?;
+    let dimension_names: Vec<String> = plan.dimensions.iter().map(|d| d.name.clone()).collect();
+    let mut models = ResultsTable::new(&dimension_names)?;
+    let data = specgrid_data::load(&plan).map_err(|e| Failure::Data(e.to_string()))?;
+    let assembly =
+        specgrid_data::assemble(&plan, &data).map_err(|e| Failure::Data(e.to_string()))?;
+    for warning in &assembly.warnings {
+        eprintln!("warning: {warning}");
+    }
+    let fit_options = fit_options(&plan, &assembly)?;
+    let estimated = estimate(&plan, &assembly, &fit_options, options)?;
+
+    let staging = Staging::begin(&options.out)?;
+    let mut terms = options
+        .all_terms
+        .then(|| ResultsTable::new(&dimension_names))
+        .transpose()?;
+    for (index, result) in estimated.iter().enumerate() {
+        let tracked_columns = tracked_columns(&plan, result.design, index)?;
+        append_model(&plan, index, result, &mut models, Some(&tracked_columns));
+        if let Some(terms) = terms.as_mut() {
+            append_model(&plan, index, result, terms, None);
+        }
+    }
+    let mut frame = models.to_frame()?;
+    write_csv(&mut frame, &staging.file("models.csv"))?;
+    write_parquet(&mut frame, &staging.file("models.parquet"))?;
+    if let Some(terms) = terms {
+        write_csv(&mut terms.to_frame()?, &staging.file("terms.csv"))?;
+    }
+    let record = RunRecord {
+        title: plan.title.clone(),
+        significance_level: plan.significance_level,
+        confidence_level: plan.confidence_level,
+        baseline_model_id: plan.baseline.map(|i| plan.models[i].id.clone()),
+        data_fingerprint: specgrid_data::fingerprint(&plan.data_path)
+            .map_err(|e| Failure::Data(e.to_string()))?,
+        dimensions: plan
+            .dimensions
+            .iter()
+            .map(|d| (d.name.clone(), d.options.clone()))
+            .collect(),
+    };
+    let study_text = std::fs::read_to_string(&options.study)
+        .map_err(|e| Failure::Study(format!("{}: {e}", options.study.display())))?;
+    write_text(&staging.file("study.toml"), &study_text)?;
+    let record_json = serde_json::to_string_pretty(&record)
+        .map_err(|e| Failure::Output(format!("run.json: {e}")))?;
+    write_text(&staging.file("run.json"), &record_json)?;
+    let terminal = report::render(&record, study_text, &models.report_rows(), staging.dir())?;
+    let written = staging.commit()?;
+
+    let failed = estimated.iter().filter(|e| e.fit.is_err()).count();
+    println!(
+        "{} models estimated in {:.1} s ({} failed; see `status` and `message`) → {}",
+        super::thousands(estimated.len() as u128),
+        started.elapsed().as_secs_f64(),
+        super::thousands(failed as u128),
+        written.display()
+    );
+    print!("{terminal}");
+    Ok(())
+}
+
+fn write_text(path: &std::path::Path, text: &str) -> Result<(), Failure> {
+    std::fs::write(path, text).map_err(|e| Failure::Output(format!("{}: {e}", path.display())))
+}
+
+/// Maps the study's error choices to engine covariances.
+fn fit_options(plan: &Plan, assembly: &Assembly) -> Result<FitOptions, Failure> {
+    let covariances = plan
+        .errors
+        .iter()
+        .map(|choice| {
+            assembly.covariance(choice).ok_or_else(|| {
+                Failure::Data(format!(
+                    "the error choice `{}` names a clustering column that was not loaded",
+                    choice.label()
+                ))
+            })
+        })
+        .collect::<Result<Vec<Covariance>, Failure>>()?;
+    Ok(FitOptions {
+        covariances,
+        confidence_level: plan.confidence_level,
+        ..FitOptions::default()
+    })
+}
+
+/// Fits every model of the plan, one shared factorisation per design, with a progress bar.
+fn estimate<'a>(
+    plan: &Plan,
+    assembly: &'a Assembly,
+    fit_options: &FitOptions,
+    options: &RunOptions,
+) -> Result<Vec<Estimated<'a>>, Failure> {
+    let progress = progress_bar(plan.models.len() as u64, options.quiet);
+    let mut slots: Vec<Option<Estimated<'a>>> = (0..plan.models.len()).map(|_| None).collect();
+    for design in &assembly.designs {
+        progress.set_message(format!("sample `{}`", design.sample_name));
+        let factor = SharedFactor::new(&design.design)
+            .map_err(|e| Failure::Estimation(format!("sample `{}`: {e}", design.sample_name)))?;
+        let specs = design
+            .models
+            .iter()
+            .map(|&m| {
+                let mut spec = design.model_spec(&plan.models[m])?;
+                if options.all_terms {
+                    // Empty tracked = inference for every coefficient of the model.
+                    spec.tracked.clear();
+                }
+                Ok(spec)
+            })
+            .collect::<Result<Vec<_>, specgrid_data::DataError>>()
+            .map_err(|e| Failure::Data(e.to_string()))?;
+        let fits = factor.fit_many_with_progress(&specs, fit_options, &|n| progress.inc(n as u64));
+        for (&m, fit) in design.models.iter().zip(fits) {
+            slots[m] = Some(Estimated { design, fit });
+        }
+    }
+    progress.finish_and_clear();
+    slots
+        .into_iter()
+        .enumerate()
+        .map(|(i, slot)| {
+            slot.ok_or_else(|| {
+                Failure::Estimation(format!(
+                    "model {} was not assigned to any design (internal error; please report it)",
+                    plan.models[i].id
+                ))
+            })
+        })
+        .collect()
+}
+
+fn progress_bar(total: u64, quiet: bool) -> ProgressBar {
+    if quiet {
+        return ProgressBar::with_draw_target(Some(total), ProgressDrawTarget::hidden());
+    }
+    let bar = ProgressBar::with_draw_target(Some(total), ProgressDrawTarget::stderr());
+    if let Ok(style) =
+        ProgressStyle::with_template("{bar:40} {pos}/{len} models  {elapsed_precise}  {msg}")
+    {
+        bar.set_style(style);
+    }
+    bar
+}
+
+/// The union columns of a model's tracked terms, in the design it was fitted on.
+fn tracked_columns(
+    plan: &Plan,
+    design: &SampleDesign,
+    model: usize,
+) -> Result<Vec<usize>, Failure> {
+    design
+        .model_spec(&plan.models[model])
+        .map(|spec| spec.tracked)
+        .map_err(|e| Failure::Data(e.to_string()))
+}
+
+/// Appends the rows of one model: one per covariance choice and reported term. `only` limits the
+/// terms to those union columns (the tracked ones); `None` writes every reported coefficient.
+fn append_model(
+    plan: &Plan,
+    index: usize,
+    estimated: &Estimated<'_>,
+    table: &mut ResultsTable,
+    only: Option<&[usize]>,
+) {
+    let model = &plan.models[index];
+    let choices: Vec<String> = plan
+        .choice_names(model)
+        .iter()
+        .map(|(_, option)| option.to_string())
+        .collect();
+    let names = &estimated.design.design.x_names;
+    let outcome = super::outcome_label(plan, model.outcome);
+    match &estimated.fit {
+        Ok(fit) => {
+            let stats = ModelStats {
+                n_obs: Some(fit.n_obs as u64),
+                n_params: Some(fit.n_params as u64),
+                r_squared: Some(fit.r_squared),
+                adj_r_squared: Some(fit.adj_r_squared),
+                resid_sd: Some(fit.resid_sd),
+                condition_number: Some(fit.condition_number),
+                het_test_stat: fit.breusch_pagan.map(|b| b.statistic),
+                het_test_p_value: fit.breusch_pagan.map(|b| b.p_value),
+                dropped: fit
+                    .dropped
+                    .iter()
+                    .map(|&c| names[c].as_str())
+                    .collect::<Vec<_>>()
+                    .join("; "),
+                outcome,
+            };
+            for (choice_index, choice) in plan.errors.iter().enumerate() {
+                for coefficient in &fit.coefficients {
+                    if only.is_some_and(|cols| !cols.contains(&coefficient.column)) {
+                        continue;
+                    }
+                    let inference = &coefficient.inference[choice_index];
+                    let values = TermValues {
+                        estimate: Some(coefficient.estimate),
+                        std_error: Some(inference.std_error),
+                        t_stat: Some(inference.t_stat),
+                        p_value: Some(inference.p_value),
+                        ci_low: Some(inference.ci_low),
+                        ci_high: Some(inference.ci_high),
+                        df: Some(inference.df),
+                    };
+                    table.push(
+                        &model.id,
+                        &choices,
+                        &choice.label(),
+                        &names[coefficient.column],
+                        values,
+                        &stats,
+                        "ok",
+                        "",
+                    );
+                }
+            }
+        }
+        Err(error) => {
+            let stats = ModelStats {
+                outcome,
+                ..ModelStats::default()
+            };
+            let message = error.to_string();
+            let terms: Vec<&str> = match only {
+                Some(cols) => cols.iter().map(|&c| names[c].as_str()).collect(),
+                None => vec![""],
+            };
+            for choice in &plan.errors {
+                for term in &terms {
+                    table.push(
+                        &model.id,
+                        &choices,
+                        &choice.label(),
+                        term,
+                        TermValues::default(),
+                        &stats,
+                        "failed",
+                        &message,
+                    );
+                }
+            }
+        }
+    }
+}
