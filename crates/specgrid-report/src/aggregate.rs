@@ -1,5 +1,5 @@
 //! Aggregation over the grid: shares, quantiles, bounds, baseline rank, decision influence and
-//! diagnostics. Formulas and sources: docs/methods-report.md.
+//! diagnostics. Formulas and sources: docs/methods.md (part 2).
 
 use std::collections::HashMap;
 

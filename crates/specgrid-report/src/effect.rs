@@ -8,7 +8,7 @@
 //! so dg/dx = Σⱼ bⱼ Fⱼ′(x) + b_xz · z and dy/dx = (dg/dx) / g′(y). Every scale below is this
 //! derivative times a factor fixed by the evaluation point, so each effect is linear in the
 //! coefficients and its delta-method variance is exactly wᵀVw. The formulas and their sources
-//! are in docs/methods-report.md.
+//! are in docs/methods.md (part 2).
 
 use serde::Serialize;
 

@@ -1,6 +1,6 @@
 //! Effect conversions against (1) central finite differences of the fitted model's prediction
 //! and of the effect itself with respect to the coefficients, and (2) worked examples computed
-//! by hand. Formulas: docs/methods-report.md.
+//! by hand. Formulas: docs/methods.md (part 2).
 
 use approx::assert_relative_eq;
 use specgrid_report::{
