@@ -149,15 +149,16 @@ fn estimate<'a>(
             .models
             .iter()
             .map(|&m| {
-                let mut spec = design.model_spec(&plan.models[m])?;
+                let mut spec = design
+                    .model_spec(&plan.models[m])
+                    .map_err(|e| Failure::Data(e.to_string()))?;
                 if options.all_terms {
                     // Empty tracked = inference for every coefficient of the model.
                     spec.tracked.clear();
                 }
                 Ok(spec)
             })
-            .collect::<Result<Vec<_>, specgrid_data::DataError>>()
-            .map_err(|e| Failure::Data(e.to_string()))?;
+            .collect::<Result<Vec<_>, Failure>>()?;
         let fits = factor.fit_many_with_progress(&specs, fit_options, &|n| progress.inc(n as u64));
         for (&m, fit) in design.models.iter().zip(fits) {
             slots[m] = Some(Estimated { design, fit });
