@@ -159,6 +159,12 @@ pub struct ModelFit {
     /// Reported coefficients with inference, in the order of [`ModelSpec::tracked`] (or model
     /// order when that is empty).
     pub coefficients: Vec<Coefficient>,
+    /// Covariance among the reported coefficients: one entry per requested covariance choice (in
+    /// the order of [`FitOptions::covariances`]), each a row-major t × t matrix over
+    /// [`ModelFit::coefficients`] in their order (t = number of reported coefficients). The
+    /// diagonal equals the squared standard errors; off-diagonals feed delta-method errors of
+    /// effects that combine coefficients.
+    pub tracked_covariance: Vec<Vec<f64>>,
     /// Heteroskedasticity diagnostic.
     pub breusch_pagan: Option<BreuschPagan>,
 }

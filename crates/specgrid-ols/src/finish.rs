@@ -31,11 +31,12 @@ pub(crate) struct BpSums {
 pub(crate) struct Meats {
     /// Kept positions covered by the w columns.
     pub wpos: Vec<usize>,
-    /// Σ w²e² per w column (empty if not requested).
+    /// Σ wⱼwₗe² over the reported coefficients (t × t, row-major, reported order; empty if not
+    /// requested).
     pub hc0: Vec<f64>,
-    /// Σ w²e²/(1 − h) per w column.
+    /// Σ wⱼwₗe²/(1 − h), laid out like `hc0`.
     pub hc2: Vec<f64>,
-    /// Σ w²e²/(1 − h)² per w column.
+    /// Σ wⱼwₗe²/(1 − h)², laid out like `hc0`.
     pub hc3: Vec<f64>,
     /// Per plan grouping: Σ_g s_g s_g' over the w columns (nw × nw, column-major), s_g = Σ_{i∈g} wᵢeᵢ.
     pub group_outer: Vec<Vec<f64>>,
@@ -95,33 +96,54 @@ pub(crate) fn finish(
             two_way[ci] = Some(repair_psd(v)?);
         }
     }
-    for (coef, &q) in coefficients.iter_mut().zip(&core.reported) {
-        let wi = meats.wpos.iter().position(|&w| w == q);
-        for (ci, (cov, groups)) in opts.covariances.iter().zip(&plan.cov_groups).enumerate() {
-            let w = || wi.expect("reported coefficient has a w column");
-            let hc_df = df_resid as f64;
-            let (var, df) = match (*cov, *groups) {
-                (Covariance::Classical, _) => (core.classical_var(q), hc_df),
-                (Covariance::Hc0, _) => (meats.hc0[w()], hc_df),
-                (Covariance::Hc1, _) => (meats.hc0[w()] * nf / hc_df, hc_df),
-                (Covariance::Hc2, _) => (meats.hc2[w()], hc_df),
-                (Covariance::Hc3, _) => (meats.hc3[w()], hc_df),
-                (Covariance::Cluster { .. }, CovGroups::One(g)) => {
-                    let occ = check_clusters(plan, g)?;
-                    let nw = meats.wpos.len();
-                    let meat = meats.group_outer[g][w() + w() * nw];
-                    (occ / (occ - 1.0) * resid_factor * meat, occ - 1.0)
-                }
-                (Covariance::TwoWayCluster { .. }, CovGroups::Two(a, b, _)) => {
-                    let v = two_way[ci].as_ref().expect("built above");
-                    let g = plan.groupings[a].occupied.min(plan.groupings[b].occupied);
-                    (v[(w(), w())], g as f64 - 1.0)
-                }
-                _ => unreachable!("plan and covariances are built together"),
-            };
+    // Row of each reported coefficient among the w columns (when any are computed).
+    let nt = core.reported.len();
+    let nw = meats.wpos.len();
+    let w_of: Vec<Option<usize>> = core
+        .reported
+        .iter()
+        .map(|&q| meats.wpos.iter().position(|&w| w == q))
+        .collect();
+    let w = |a: usize| w_of[a].expect("reported coefficient has a w column");
+    let hc_df = df_resid as f64;
+    let mut tracked_covariance = Vec::with_capacity(opts.covariances.len());
+    for (ci, (cov, groups)) in opts.covariances.iter().zip(&plan.cov_groups).enumerate() {
+        let mut m = vec![0.0; nt * nt];
+        let mut df = hc_df;
+        for a in 0..nt {
+            for b in a..nt {
+                let (qa, qb) = (core.reported[a], core.reported[b]);
+                let ab = a * nt + b;
+                let v = match (*cov, *groups) {
+                    (Covariance::Classical, _) => core.classical_cov(qa, qb),
+                    (Covariance::Hc0, _) => meats.hc0[ab],
+                    (Covariance::Hc1, _) => meats.hc0[ab] * nf / hc_df,
+                    (Covariance::Hc2, _) => meats.hc2[ab],
+                    (Covariance::Hc3, _) => meats.hc3[ab],
+                    (Covariance::Cluster { .. }, CovGroups::One(g)) => {
+                        let occ = check_clusters(plan, g)?;
+                        df = occ - 1.0;
+                        let meat = meats.group_outer[g][w(a) + w(b) * nw];
+                        occ / (occ - 1.0) * resid_factor * meat
+                    }
+                    (Covariance::TwoWayCluster { .. }, CovGroups::Two(ga, gb, _)) => {
+                        let v = two_way[ci].as_ref().expect("built above");
+                        let g = plan.groupings[ga].occupied.min(plan.groupings[gb].occupied);
+                        df = g as f64 - 1.0;
+                        v[(w(a), w(b))]
+                    }
+                    _ => unreachable!("plan and covariances are built together"),
+                };
+                m[ab] = v;
+                m[b * nt + a] = v;
+            }
+        }
+        for (a, coef) in coefficients.iter_mut().enumerate() {
+            let var = m[a * nt + a];
             coef.inference
                 .push(inference(*cov, coef.estimate, var, df, tq));
         }
+        tracked_covariance.push(m);
     }
     let (r_squared, adj_r_squared) = r_squared(core);
     Ok(ModelFit {
@@ -140,6 +162,7 @@ pub(crate) fn finish(
             .zip(core.coef.iter().copied())
             .collect(),
         coefficients,
+        tracked_covariance,
         breusch_pagan: meats.bp.as_ref().and_then(|bp| breusch_pagan(core, bp)),
     })
 }

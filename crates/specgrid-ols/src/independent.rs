@@ -180,6 +180,8 @@ fn direct_sums(design: &Design, core: &CoreFit, plan: &Plan) -> Meats {
         .iter()
         .map(|g| vec![0.0; g.range * nw])
         .collect();
+    let nt = core.reported.len();
+    let mut reported_we: Vec<Vec<f64>> = vec![Vec::new(); nt];
     for (wi, &q) in meats.wpos.clone().iter().enumerate() {
         // wᵢ·eᵢ with wᵢ = (row q of (X'X)⁻¹)·xᵢ.
         core.xtx_inv_row(q, &mut a);
@@ -190,29 +192,47 @@ fn direct_sums(design: &Design, core: &CoreFit, plan: &Plan) -> Meats {
                 .for_each(|(w, x)| *w += al * x);
         }
         we.iter_mut().zip(&resid).for_each(|(w, e)| *w *= e);
-        let hc0: f64 = we.iter().map(|v| v * v).sum();
-        let (mut hc2, mut hc3) = (0.0, 0.0);
-        for (v, h) in we.iter().zip(&leverage) {
-            let gap = 1.0 - h;
-            if gap > UNIT_LEVERAGE_GAP {
-                hc2 += v * v / gap;
-                hc3 += v * v / (gap * gap);
-            }
-        }
-        if plan.need_hc0 {
-            meats.hc0.push(hc0);
-        }
-        if plan.need_hc2 {
-            meats.hc2.push(hc2);
-        }
-        if plan.need_hc3 {
-            meats.hc3.push(hc3);
+        if let Some(a) = core.reported.iter().position(|&r| r == q) {
+            reported_we[a] = we.clone();
         }
         for (sums, g) in cluster.iter_mut().zip(&plan.groupings) {
             let s = &mut sums[wi * g.range..(wi + 1) * g.range];
             for (v, &code) in we.iter().zip(&g.codes) {
                 s[code as usize] += v;
             }
+        }
+    }
+    // HC sums over every pair of reported coefficients, Σ (wₐe)(w_b e) [/(1 − h), /(1 − h)²].
+    let need_hc = plan.need_hc0 || plan.need_hc2 || plan.need_hc3;
+    if need_hc {
+        let mut sums = vec![[0.0f64; 3]; nt * nt];
+        for a in 0..nt {
+            for b in a..nt {
+                let mut cell = [0.0f64; 3];
+                for (i, (va, vb)) in reported_we[a].iter().zip(&reported_we[b]).enumerate() {
+                    let prod = va * vb;
+                    cell[0] += prod;
+                    if let Some(h) = leverage.get(i) {
+                        let gap = 1.0 - h;
+                        if gap > UNIT_LEVERAGE_GAP {
+                            cell[1] += prod / gap;
+                            cell[2] += prod / (gap * gap);
+                        }
+                    }
+                }
+                sums[a * nt + b] = cell;
+                sums[b * nt + a] = cell;
+            }
+        }
+        let pick = |which: usize| sums.iter().map(|c| c[which]).collect::<Vec<f64>>();
+        if plan.need_hc0 {
+            meats.hc0 = pick(0);
+        }
+        if plan.need_hc2 {
+            meats.hc2 = pick(1);
+        }
+        if plan.need_hc3 {
+            meats.hc3 = pick(2);
         }
     }
     meats.group_outer = cluster

@@ -91,6 +91,19 @@ impl CoreFit {
         let row: f64 = (q..k).map(|c| self.rinv[q + c * k].powi(2)).sum();
         self.sigma2() * row / (self.scales[q] * self.scales[q])
     }
+
+    /// Classical covariance of coefficients q and l: σ²·(R⁻¹R⁻ᵀ)[q, l]/(s_q s_l); the diagonal
+    /// is [`CoreFit::classical_var`] itself.
+    pub fn classical_cov(&self, q: usize, l: usize) -> f64 {
+        if q == l {
+            return self.classical_var(q);
+        }
+        let k = self.k();
+        let s: f64 = (q.max(l)..k)
+            .map(|c| self.rinv[q + c * k] * self.rinv[l + c * k])
+            .sum();
+        self.sigma2() * s / (self.scales[q] * self.scales[l])
+    }
 }
 
 /// The triangular factor of one model's scaled columns, from either route.

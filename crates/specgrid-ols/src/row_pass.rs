@@ -94,7 +94,41 @@ pub(crate) fn row_pass(
     let mut w = Mat::<f64>::zeros(block, nw);
     let mut lev = Mat::<f64>::zeros(block, nl);
     let mut h = vec![0.0; block];
-    let mut hc_acc = vec![[0.0f64; 3]; nw];
+    // HC sums over pairs of reported coefficients: model t owns the upper triangle of a
+    // t_rep × t_rep block starting at hc_start[t]; rep_w[t] are its reported w columns.
+    let need_hc = plan.need_hc0 || plan.need_hc2 || plan.need_hc3;
+    let mut w_start = 0;
+    let rep_w: Vec<Vec<usize>> = cores
+        .iter()
+        .zip(&meats)
+        .map(|(core, m)| {
+            let cols = if need_hc {
+                core.reported
+                    .iter()
+                    .map(|q| {
+                        w_start
+                            + m.wpos
+                                .iter()
+                                .position(|w| w == q)
+                                .expect("reported in wpos")
+                    })
+                    .collect()
+            } else {
+                Vec::new()
+            };
+            w_start += m.wpos.len();
+            cols
+        })
+        .collect();
+    let hc_start: Vec<usize> = rep_w
+        .iter()
+        .scan(0, |s, r| {
+            let start = *s;
+            *s += r.len() * r.len();
+            Some(start)
+        })
+        .collect();
+    let mut hc_acc = vec![[0.0f64; 3]; rep_w.iter().map(|r| r.len() * r.len()).sum()];
 
     let mut r0 = 0;
     while r0 < n {
@@ -156,21 +190,17 @@ pub(crate) fn row_pass(
                         }
                     }
                 }
+                if t != last_model && need_hc {
+                    hc_pairs(
+                        w.as_ref().subrows(0, nr),
+                        e.col(t).subrows(0, nr),
+                        if nl > 0 { Some(&h[..nr]) } else { None },
+                        &rep_w[t],
+                        &mut hc_acc[hc_start[t]..],
+                    );
+                }
                 last_model = t;
                 let (wc, ec) = (w.col(col), e.col(t));
-                let acc = &mut hc_acc[col];
-                for i in 0..nr {
-                    let we = wc[i] * ec[i];
-                    let we2 = we * we;
-                    acc[0] += we2;
-                    if nl > 0 {
-                        let gap = 1.0 - h[i];
-                        if gap > UNIT_LEVERAGE_GAP {
-                            acc[1] += we2 / gap;
-                            acc[2] += we2 / (gap * gap);
-                        }
-                    }
-                }
                 for (sums, grouping) in cluster_sums.iter_mut().zip(&plan.groupings) {
                     let s = &mut sums[col * grouping.range..(col + 1) * grouping.range];
                     let codes = &grouping.codes[r0..r0 + nr];
@@ -187,15 +217,24 @@ pub(crate) fn row_pass(
     let mut col = 0;
     for (t, (core, meat)) in cores.iter().zip(meats.iter_mut()).enumerate() {
         let nwt = meat.wpos.len();
-        let cols = col..col + nwt;
+        let nt = rep_w[t].len();
+        let acc = &hc_acc[hc_start[t]..hc_start[t] + nt * nt];
+        let full = |which: usize| -> Vec<f64> {
+            (0..nt * nt)
+                .map(|ab| {
+                    let (a, b) = (ab / nt, ab % nt);
+                    acc[a.min(b) * nt + a.max(b)][which]
+                })
+                .collect()
+        };
         if plan.need_hc0 {
-            meat.hc0 = cols.clone().map(|c| hc_acc[c][0]).collect();
+            meat.hc0 = full(0);
         }
         if plan.need_hc2 {
-            meat.hc2 = cols.clone().map(|c| hc_acc[c][1]).collect();
+            meat.hc2 = full(1);
         }
         if plan.need_hc3 {
-            meat.hc3 = cols.clone().map(|c| hc_acc[c][2]).collect();
+            meat.hc3 = full(2);
         }
         meat.group_outer = cluster_sums
             .iter()
@@ -211,6 +250,39 @@ pub(crate) fn row_pass(
         col += nwt;
     }
     meats
+}
+
+/// Adds one block's HC sums for one model: for every pair a ≤ b of its reported w columns,
+/// Σᵢ (wₐᵢeᵢ)(w_bᵢeᵢ) and the same over (1 − hᵢ) and (1 − hᵢ)² (`lev` present only when HC2/HC3
+/// are requested). `acc` starts at the model's t × t block (upper triangle used). Cost O(rows·t²).
+fn hc_pairs(
+    w: MatRef<'_, f64>,
+    e: faer::ColRef<'_, f64>,
+    lev: Option<&[f64]>,
+    rep_w: &[usize],
+    acc: &mut [[f64; 3]],
+) {
+    let nt = rep_w.len();
+    let nr = w.nrows();
+    for a in 0..nt {
+        let wa = w.col(rep_w[a]);
+        for b in a..nt {
+            let wb = w.col(rep_w[b]);
+            let cell = &mut acc[a * nt + b];
+            for i in 0..nr {
+                // Same products as the diagonal's (w·e)², so the diagonal is unchanged.
+                let prod = (wa[i] * e[i]) * (wb[i] * e[i]);
+                cell[0] += prod;
+                if let Some(h) = lev {
+                    let gap = 1.0 - h[i];
+                    if gap > UNIT_LEVERAGE_GAP {
+                        cell[1] += prod / gap;
+                        cell[2] += prod / (gap * gap);
+                    }
+                }
+            }
+        }
+    }
 }
 
 /// Meats with the w positions decided but no sums yet.

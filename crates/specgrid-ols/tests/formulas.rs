@@ -332,6 +332,91 @@ fn tracked_subset_gets_the_same_numbers_as_the_full_model() {
     assert_eq!(one.coefficients[0], full.coefficients[2]);
 }
 
+/// The covariance among tracked coefficients against the full dense textbook sandwich
+/// (X'X)⁻¹X'ΩX(X'X)⁻¹ of `textbook` above: classical (σ²(X'X)⁻¹), HC0 (White 1980), HC1–HC3
+/// (MacKinnon & White 1985), one-way CR1 (Liang & Zeger 1986) and two-way with the eigenvalue
+/// repair (Cameron, Gelbach & Miller 2011). Off-diagonals are judged relative to
+/// sqrt(V_aa·V_bb), since a true covariance may be near zero; the diagonal must equal the
+/// squared reported standard errors.
+#[test]
+fn tracked_covariance_matches_the_textbook_sandwich_off_the_diagonal() {
+    let design = random_design(23, 300, CONT, LEVELS, 17, 8);
+    let opts = all_covariances();
+    let cols = vec![0, 1, 2, 3, 1 + CONT, 2 + CONT];
+    // Tracked out of model order, so the matrix must follow `coefficients`, not the model.
+    for tracked in [vec![], vec![3, 1, 1 + CONT], vec![2]] {
+        for outcome in 0..2 {
+            let model = ModelSpec {
+                columns: cols.clone(),
+                outcome,
+                tracked: tracked.clone(),
+            };
+            let nv = naive(&design, &cols, outcome);
+            let shared = SharedFactor::new(&design)
+                .unwrap()
+                .fit(&model, &opts)
+                .unwrap();
+            let indep = fit_independent(&design, &model, &opts).unwrap();
+            for fit in [&shared, &indep] {
+                let pos: Vec<usize> = fit
+                    .coefficients
+                    .iter()
+                    .map(|c| cols.iter().position(|&x| x == c.column).unwrap())
+                    .collect();
+                let t = pos.len();
+                assert_eq!(
+                    t,
+                    if tracked.is_empty() {
+                        cols.len()
+                    } else {
+                        tracked.len()
+                    }
+                );
+                assert_eq!(fit.tracked_covariance.len(), opts.covariances.len());
+                let mut off_diagonals = 0;
+                for (ci, &cov) in opts.covariances.iter().enumerate() {
+                    let m = &fit.tracked_covariance[ci];
+                    assert_eq!(m.len(), t * t);
+                    let v = textbook(&design, &nv, cov);
+                    for a in 0..t {
+                        let se = fit.coefficients[a].inference[ci].std_error;
+                        assert!(
+                            close(m[a * t + a], se * se, 1e-12),
+                            "{cov:?} diagonal {a}: {} vs SE² {}",
+                            m[a * t + a],
+                            se * se
+                        );
+                        for b in 0..t {
+                            let want = v[pos[a]][pos[b]];
+                            let got = m[a * t + b];
+                            assert_eq!(got, m[b * t + a], "{cov:?}: not symmetric");
+                            let scale = (v[pos[a]][pos[a]] * v[pos[b]][pos[b]]).sqrt();
+                            assert!(
+                                (got - want).abs() <= 1e-10 * scale,
+                                "{cov:?} [{a},{b}]: {got:e} vs textbook {want:e}"
+                            );
+                            if a != b {
+                                // A real check: the textbook covariance is not negligible.
+                                if want.abs() > 1e-3 * scale {
+                                    off_diagonals += 1;
+                                }
+                            }
+                        }
+                    }
+                }
+                if t > 1 {
+                    assert!(off_diagonals > 0, "no sizeable off-diagonal was checked");
+                }
+            }
+            compare_fits_ok(&shared, &indep);
+        }
+    }
+}
+
+fn compare_fits_ok(a: &ModelFit, b: &ModelFit) {
+    support::compare_fits(a, b, 1e-10).unwrap_or_else(|e| panic!("routes disagree: {e}"));
+}
+
 /// Koenker (1981, J. Econometrics 17) studentized Breusch–Pagan: regress uᵢ = eᵢ² on the
 /// model's regressors (with its constant); LM = n·R² (centred), chi-square with k − 1 df.
 #[test]

@@ -173,6 +173,32 @@ pub fn compare_fits(a: &ModelFit, b: &ModelFit, rel: f64) -> Result<(), String> 
             scalar(&what("CI high"), i.ci_high, j.ci_high)?;
         }
     }
+    if a.tracked_covariance.len() != b.tracked_covariance.len() {
+        return Err("tracked_covariance: different number of choices".into());
+    }
+    let t = a.coefficients.len();
+    for (ci, (x, y)) in a
+        .tracked_covariance
+        .iter()
+        .zip(&b.tracked_covariance)
+        .enumerate()
+    {
+        if x.len() != t * t || y.len() != t * t {
+            return Err(format!("tracked_covariance {ci}: not {t} × {t}"));
+        }
+        for i in 0..t {
+            for j in 0..t {
+                // Off-diagonals can be near zero: judge them on the scale sqrt(V_ii·V_jj).
+                let scale = (x[i * t + i] * x[j * t + j]).abs().sqrt();
+                let (u, v) = (x[i * t + j], y[i * t + j]);
+                if (u - v).abs() > rel * scale.max(u.abs()).max(v.abs()) + 1e-300
+                    && !(u.is_nan() && v.is_nan())
+                {
+                    return Err(format!("tracked_covariance {ci} [{i},{j}]: {u:e} vs {v:e}"));
+                }
+            }
+        }
+    }
     match (&a.breusch_pagan, &b.breusch_pagan) {
         (Some(x), Some(y)) => {
             scalar("BP statistic", x.statistic, y.statistic)?;
