@@ -27,6 +27,21 @@ fn small_csv(dir: &Path) -> std::path::PathBuf {
     path
 }
 
+/// Overwrites one cell (0-based `column`) in each of the given file lines (line 0 is the header).
+fn set_cells(csv_path: &Path, lines_to_edit: &[usize], column: usize, value: &str) {
+    let mut lines: Vec<String> = fs::read_to_string(csv_path)
+        .unwrap()
+        .lines()
+        .map(str::to_string)
+        .collect();
+    for &line in lines_to_edit {
+        let mut cells: Vec<String> = lines[line].split(',').map(str::to_string).collect();
+        cells[column] = value.to_string();
+        lines[line] = cells.join(",");
+    }
+    fs::write(csv_path, lines.join("\n") + "\n").unwrap();
+}
+
 /// A study on `small.csv`: `extra` is appended verbatim.
 fn small_study(dir: &Path, extra: &str) -> std::path::PathBuf {
     small_csv(dir);
@@ -399,18 +414,7 @@ fn non_numeric_and_infinite_cells_are_refused_with_counts() {
     for (bad, needle) in [("oops", "not a number"), ("inf", "infinite")] {
         let dir = tempfile::tempdir().unwrap();
         let study = small_study(dir.path(), "");
-        let csv_path = dir.path().join("small.csv");
-        let mut lines: Vec<String> = fs::read_to_string(&csv_path)
-            .unwrap()
-            .lines()
-            .map(str::to_string)
-            .collect();
-        for row in [3, 9] {
-            let mut cells: Vec<String> = lines[row].split(',').map(str::to_string).collect();
-            cells[2] = bad.to_string();
-            lines[row] = cells.join(",");
-        }
-        fs::write(&csv_path, lines.join("\n") + "\n").unwrap();
+        set_cells(&dir.path().join("small.csv"), &[3, 9], 2, bad);
         let out = dir.path().join("res");
         assert_refused(
             &run_study(&study, &out, &[]),
@@ -466,18 +470,7 @@ fn failed_run_keeps_previous_results() {
 fn missing_values_are_reported_as_a_warning_with_the_count() {
     let dir = tempfile::tempdir().unwrap();
     let study = small_study(dir.path(), "");
-    let csv_path = dir.path().join("small.csv");
-    let mut lines: Vec<String> = fs::read_to_string(&csv_path)
-        .unwrap()
-        .lines()
-        .map(str::to_string)
-        .collect();
-    for row in [2, 5, 8] {
-        let mut cells: Vec<String> = lines[row].split(',').map(str::to_string).collect();
-        cells[3] = String::new();
-        lines[row] = cells.join(",");
-    }
-    fs::write(&csv_path, lines.join("\n") + "\n").unwrap();
+    set_cells(&dir.path().join("small.csv"), &[2, 5, 8], 3, "");
     let out = dir.path().join("res");
     let output = run_study(&study, &out, &[]);
     assert!(output.status.success(), "{}", text(&output));
