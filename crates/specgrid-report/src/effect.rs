@@ -199,16 +199,22 @@ pub enum EffectError {
     Missing(&'static str),
 }
 
-/// Computes the tracked effect on `scale` with its delta-method standard error.
-pub fn effect(inputs: &EffectInputs<'_>, scale: Scale) -> Result<Effect, EffectError> {
-    check_counts(inputs)?;
-    let k = inputs.coefficients.len() + usize::from(inputs.interaction.is_some());
-    let all: Vec<f64> = inputs
+/// The focus coefficients followed by the interaction coefficient, if any: the order the
+/// gradients and the covariance matrix use.
+fn stacked_coefficients(inputs: &EffectInputs<'_>) -> Vec<f64> {
+    inputs
         .coefficients
         .iter()
         .copied()
         .chain(inputs.interaction)
-        .collect();
+        .collect()
+}
+
+/// Computes the tracked effect on `scale` with its delta-method standard error.
+pub fn effect(inputs: &EffectInputs<'_>, scale: Scale) -> Result<Effect, EffectError> {
+    check_counts(inputs)?;
+    let k = inputs.coefficients.len() + usize::from(inputs.interaction.is_some());
+    let all = stacked_coefficients(inputs);
 
     let weights = match scale {
         Scale::Coefficient => {
@@ -323,12 +329,7 @@ fn proportional_change(inputs: &EffectInputs<'_>) -> Option<Derived> {
     if inputs.interaction.is_some() {
         w.push(inputs.at.moderator?);
     }
-    let all: Vec<f64> = inputs
-        .coefficients
-        .iter()
-        .copied()
-        .chain(inputs.interaction)
-        .collect();
+    let all = stacked_coefficients(inputs);
     let c = dot(&w, &all);
     let g = c.exp();
     // d(exp(c) − 1)/db = exp(c)·w.
