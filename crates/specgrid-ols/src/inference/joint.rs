@@ -15,7 +15,7 @@ use faer::Mat;
 use rayon::prelude::*;
 use statrs::distribution::{ContinuousCDF, Normal};
 
-use crate::api::{FitOptions, ModelSpec};
+use crate::api::{Covariance, FitOptions, ModelError, ModelFit, ModelSpec};
 use crate::shared::SharedFactor;
 use crate::student::two_sided_p;
 
@@ -55,7 +55,7 @@ impl Default for JointOptions {
     fn default() -> Self {
         JointOptions {
             draws: 500,
-            seed: 20_200_1208,
+            seed: 20_201_208,
             alpha: 0.05,
             weights: BootstrapWeights::Rademacher,
             cluster_dim: None,
@@ -108,13 +108,38 @@ struct ModelStats {
 
 /// Runs the joint test on the curve `models` of one design. `factor` must come from
 /// [`SharedFactor::new_for_refits`]; the t-statistics use classical standard errors (see
-/// docs/methods.md: the bootstrap, not the formula, carries the dependence).
+/// docs/methods.md: the bootstrap, not the formula, carries the dependence). Fits the models
+/// once first; with the grid's fits at hand use [`joint_curve_test_from_fits`].
 pub fn joint_curve_test(
     factor: &SharedFactor<'_>,
     models: &[CurveModel],
     fit_opts: &FitOptions,
     opts: &JointOptions,
 ) -> Result<JointTest, InferenceError> {
+    let specs: Vec<ModelSpec> = models.iter().map(|m| m.spec.clone()).collect();
+    let classical = FitOptions {
+        covariances: vec![Covariance::Classical],
+        ..fit_opts.clone()
+    };
+    joint_curve_test_from_fits(factor, models, &factor.fit_many(&specs, &classical), opts)
+}
+
+/// As [`joint_curve_test`], with the models' fits on `factor` given (one per model, e.g. the
+/// grid's own results under any covariance choice): only their kept columns and refusals are
+/// used.
+pub fn joint_curve_test_from_fits(
+    factor: &SharedFactor<'_>,
+    models: &[CurveModel],
+    fits: &[Result<ModelFit, ModelError>],
+    opts: &JointOptions,
+) -> Result<JointTest, InferenceError> {
+    if fits.len() != models.len() {
+        return Err(InferenceError::Invalid(format!(
+            "{} fits given for {} curve models",
+            fits.len(),
+            models.len()
+        )));
+    }
     let design = factor.design();
     if opts.draws == 0 || !(opts.alpha > 0.0 && opts.alpha < 1.0) {
         return Err(InferenceError::Invalid(
@@ -138,8 +163,7 @@ pub fn joint_curve_test(
             Some((&c.codes, c.count))
         }
     };
-    let specs: Vec<ModelSpec> = models.iter().map(|m| m.spec.clone()).collect();
-    let refit = OutcomeRefit::new(factor, &specs, fit_opts)?;
+    let refit = OutcomeRefit::from_fits(factor, fits)?;
     let used: Vec<usize> = (0..models.len())
         .filter(|&i| refit.model_error(i).is_none())
         .collect();

@@ -12,7 +12,9 @@ mod weights;
 mod wild_cluster;
 
 pub use gelbach::{gelbach, BlockContribution, ControlBlock, GelbachDecomposition};
-pub use joint::{joint_curve_test, CurveModel, CurveStats, JointOptions, JointTest};
+pub use joint::{
+    joint_curve_test, joint_curve_test_from_fits, CurveModel, CurveStats, JointOptions, JointTest,
+};
 pub use oster::{oster, OsterInputs, OsterResult};
 pub use refit::{OutcomeRefit, Projected, RefitBatch};
 pub use weights::BootstrapWeights;

@@ -154,9 +154,10 @@ impl OsterInputs {
 /// Computes δ for β = 0 and β* for δ = 1 (see the module docs for the expressions).
 pub fn oster(inputs: &OsterInputs) -> Result<OsterResult, InferenceError> {
     let r_max = inputs.r_max();
-    let ok = |v: f64| v.is_finite();
-    if !(ok(inputs.var_y) && inputs.var_y > 0.0 && ok(inputs.var_x) && inputs.var_x > 0.0)
-        || !(ok(inputs.var_x_resid) && inputs.var_x_resid > 0.0)
+    let positive = |v: f64| v.is_finite() && v > 0.0;
+    if ![inputs.var_y, inputs.var_x, inputs.var_x_resid]
+        .into_iter()
+        .all(positive)
     {
         return Err(InferenceError::Invalid(
             "Oster's bounds need positive, finite variances of the outcome, the focus and the focus net of controls".into(),

@@ -12,7 +12,7 @@ use faer::linalg::matmul::matmul;
 use faer::{Accum, Mat, MatRef, Par};
 use rayon::prelude::*;
 
-use crate::api::{Covariance, FitOptions, ModelError, ModelSpec};
+use crate::api::{Covariance, FitOptions, ModelError, ModelFit, ModelSpec};
 use crate::dense::{householder_in_place, thin_q};
 use crate::shared::SharedFactor;
 use crate::small_qr::upper_inverse;
@@ -68,25 +68,35 @@ impl<'f> OutcomeRefit<'f> {
     /// Prepares `models` on `factor` (which must come from [`SharedFactor::new_for_refits`]).
     /// Each model is first fitted normally (classical errors) so that the same columns are
     /// dropped as collinear and the same models are refused as in the grid itself; those
-    /// models carry their error here too.
+    /// models carry their error here too. When the grid's fits are at hand already, use
+    /// [`OutcomeRefit::from_fits`] and skip that pass.
     pub fn new(
         factor: &'f SharedFactor<'_>,
         models: &[ModelSpec],
         opts: &FitOptions,
     ) -> Result<OutcomeRefit<'f>, InferenceError> {
-        let basis = factor.x_basis().ok_or(InferenceError::NoBasis)?;
         let classical = FitOptions {
             covariances: vec![Covariance::Classical],
             ..opts.clone()
         };
-        let fits = factor.fit_many(models, &classical);
+        Self::from_fits(factor, &factor.fit_many(models, &classical))
+    }
+
+    /// Prepares the models whose fits on `factor` are `fits` (one per model, as returned by
+    /// [`SharedFactor::fit_many`]): the kept columns are read from each fit, and a refused
+    /// model stays refused.
+    pub fn from_fits(
+        factor: &'f SharedFactor<'_>,
+        fits: &[Result<ModelFit, ModelError>],
+    ) -> Result<OutcomeRefit<'f>, InferenceError> {
+        let basis = factor.x_basis().ok_or(InferenceError::NoBasis)?;
         let r = factor.union_r();
         let rows = basis.ncols();
         let scales = factor.x_scales();
         let prepared = fits
-            .into_par_iter()
+            .par_iter()
             .map(|fit| {
-                let fit = fit?;
+                let fit = fit.as_ref().map_err(Clone::clone)?;
                 let kept: Vec<usize> = fit.all_estimates.iter().map(|&(c, _)| c).collect();
                 Ok(prepare(r, rows, &kept, scales))
             })
