@@ -41,14 +41,7 @@ fn curve_models(count: usize, p: usize, seed: u64) -> Vec<CurveModel> {
                     columns.push(c);
                 }
             }
-            CurveModel {
-                spec: ModelSpec {
-                    columns,
-                    outcome: 0,
-                    tracked: vec![1],
-                },
-                focus: 1,
-            }
+            CurveModel::tracking(columns, 0, 1)
         })
         .collect()
 }

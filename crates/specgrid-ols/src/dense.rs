@@ -5,10 +5,11 @@ use faer::linalg::householder::{
     apply_block_householder_sequence_on_the_left_in_place_scratch,
     apply_block_householder_sequence_on_the_left_in_place_with_conj,
 };
+use faer::linalg::matmul::matmul;
 use faer::linalg::qr::no_pivoting::factor::{
     qr_in_place, qr_in_place_scratch, recommended_block_size,
 };
-use faer::{ColRef, Conj, Mat, MatRef, Par};
+use faer::{Accum, ColRef, Conj, Mat, MatRef, Par};
 
 /// The 2-norm used to scale a column to unit length; 1 for an all-zero column.
 pub(crate) fn unit_scale(col: ColRef<'_, f64>) -> f64 {
@@ -46,6 +47,29 @@ pub(crate) fn householder_in_place(z: &mut Mat<f64>) -> Mat<f64> {
         Default::default(),
     );
     coeff
+}
+
+/// Thin QR of a tall `x` (rows ≥ columns = k): Q (rows × k) and the k × k upper factor R,
+/// column-major. Sequential (thread-independent numbers).
+pub(crate) fn thin_qr(x: MatRef<'_, f64>) -> (Mat<f64>, Vec<f64>) {
+    let k = x.ncols();
+    let mut z = x.to_owned();
+    let coeff = householder_in_place(&mut z);
+    let q = thin_q(z.as_ref(), coeff.as_ref(), k);
+    let mut r = vec![0.0; k * k];
+    for j in 0..k {
+        for i in 0..=j {
+            r[i + j * k] = z[(i, j)];
+        }
+    }
+    (q, r)
+}
+
+/// a·b as a new matrix, computed sequentially (thread-independent numbers).
+pub(crate) fn seq_product(a: MatRef<'_, f64>, b: MatRef<'_, f64>) -> Mat<f64> {
+    let mut out = Mat::<f64>::zeros(a.nrows(), b.ncols());
+    matmul(out.as_mut(), Accum::Replace, a, b, 1.0, Par::Seq);
+    out
 }
 
 /// The first `cols` columns of Q from a factor left by [`householder_in_place`] (`z` and its

@@ -153,14 +153,7 @@ fn curve_design(seed: u64, n: usize, beta: f64, confounding: f64) -> (Design, Ve
                     .filter(|b| mask & (1 << b) != 0)
                     .map(|b| 2 + b as usize),
             );
-            CurveModel {
-                spec: ModelSpec {
-                    columns,
-                    outcome: 0,
-                    tracked: vec![1],
-                },
-                focus: 1,
-            }
+            CurveModel::tracking(columns, 0, 1)
         })
         .collect();
     (design, models)

@@ -51,6 +51,20 @@ pub struct JointOptions {
     pub cluster_dim: Option<usize>,
 }
 
+impl CurveModel {
+    /// A curve model on `columns` and `outcome` whose tracked coefficient is `focus`.
+    pub fn tracking(columns: Vec<usize>, outcome: usize, focus: usize) -> CurveModel {
+        CurveModel {
+            spec: ModelSpec {
+                columns,
+                outcome,
+                tracked: vec![focus],
+            },
+            focus,
+        }
+    }
+}
+
 impl Default for JointOptions {
     fn default() -> Self {
         JointOptions {
@@ -133,36 +147,8 @@ pub fn joint_curve_test_from_fits(
     fits: &[Result<ModelFit, ModelError>],
     opts: &JointOptions,
 ) -> Result<JointTest, InferenceError> {
-    if fits.len() != models.len() {
-        return Err(InferenceError::Invalid(format!(
-            "{} fits given for {} curve models",
-            fits.len(),
-            models.len()
-        )));
-    }
     let design = factor.design();
-    if opts.draws == 0 || !(opts.alpha > 0.0 && opts.alpha < 1.0) {
-        return Err(InferenceError::Invalid(
-            "the joint test needs at least one draw and a level alpha in (0, 1)".into(),
-        ));
-    }
-    for (i, m) in models.iter().enumerate() {
-        if !m.spec.columns.contains(&m.focus) {
-            return Err(InferenceError::Invalid(format!(
-                "curve model {i}: focus column {} is not among the model's columns",
-                m.focus
-            )));
-        }
-    }
-    let groups: Option<(&[u32], usize)> = match opts.cluster_dim {
-        None => None,
-        Some(d) => {
-            let c = design.clusters.get(d).ok_or_else(|| {
-                InferenceError::Invalid(format!("no clustering dimension {d} in the design"))
-            })?;
-            Some((&c.codes, c.count))
-        }
-    };
+    let groups = check_request(design, models, fits, opts)?;
     let refit = OutcomeRefit::from_fits(factor, fits)?;
     let used: Vec<usize> = (0..models.len())
         .filter(|&i| refit.model_error(i).is_none())
@@ -248,6 +234,44 @@ pub fn joint_curve_test_from_fits(
         p_share: p_of(&|s| s.share_significant >= observed.share_significant),
         p_stouffer: p_of(&|s| s.stouffer_z.abs() >= observed.stouffer_z.abs()),
     })
+}
+
+/// Validates the request; returns the weight groups (cluster codes and count) if any.
+fn check_request<'d>(
+    design: &'d crate::api::Design,
+    models: &[CurveModel],
+    fits: &[Result<ModelFit, ModelError>],
+    opts: &JointOptions,
+) -> Result<Option<(&'d [u32], usize)>, InferenceError> {
+    if fits.len() != models.len() {
+        return Err(InferenceError::Invalid(format!(
+            "{} fits given for {} curve models",
+            fits.len(),
+            models.len()
+        )));
+    }
+    if opts.draws == 0 || !(opts.alpha > 0.0 && opts.alpha < 1.0) {
+        return Err(InferenceError::Invalid(
+            "the joint test needs at least one draw and a level alpha in (0, 1)".into(),
+        ));
+    }
+    for (i, m) in models.iter().enumerate() {
+        if !m.spec.columns.contains(&m.focus) {
+            return Err(InferenceError::Invalid(format!(
+                "curve model {i}: focus column {} is not among the model's columns",
+                m.focus
+            )));
+        }
+    }
+    match opts.cluster_dim {
+        None => Ok(None),
+        Some(d) => {
+            let c = design.clusters.get(d).ok_or_else(|| {
+                InferenceError::Invalid(format!("no clustering dimension {d} in the design"))
+            })?;
+            Ok(Some((&c.codes, c.count)))
+        }
+    }
 }
 
 /// Per outcome: (fitted values on the union span, residuals).

@@ -13,7 +13,7 @@ use faer::{Accum, Mat, MatRef, Par};
 use rayon::prelude::*;
 
 use crate::api::{Covariance, FitOptions, ModelError, ModelFit, ModelSpec};
-use crate::dense::{householder_in_place, thin_q};
+use crate::dense::{seq_product, thin_qr};
 use crate::shared::SharedFactor;
 use crate::small_qr::upper_inverse;
 
@@ -127,15 +127,7 @@ impl<'f> OutcomeRefit<'f> {
     /// c = Q_X'y* (p' × d) and the out-of-span residual sums of squares ‖y* − Q_X·c‖².
     pub fn project(&self, ys: MatRef<'_, f64>) -> Projected {
         let d = ys.ncols();
-        let mut c = Mat::<f64>::zeros(self.basis.ncols(), d);
-        matmul(
-            c.as_mut(),
-            Accum::Replace,
-            self.basis.transpose(),
-            ys,
-            1.0,
-            Par::Seq,
-        );
+        let c = seq_product(self.basis.transpose(), ys);
         let mut outside = ys.to_owned();
         matmul(
             outside.as_mut(),
@@ -151,16 +143,7 @@ impl<'f> OutcomeRefit<'f> {
 
     /// Fitted values on the union span, Q_X·c (n × d), of projected outcomes.
     pub fn fitted(&self, proj: &Projected) -> Mat<f64> {
-        let mut f = Mat::<f64>::zeros(self.n, proj.c.ncols());
-        matmul(
-            f.as_mut(),
-            Accum::Replace,
-            self.basis,
-            proj.c.as_ref(),
-            1.0,
-            Par::Seq,
-        );
-        f
+        seq_product(self.basis, proj.c.as_ref())
     }
 
     /// Refits model `i` on projected outcomes; `Err` if the model was refused.
@@ -168,24 +151,8 @@ impl<'f> OutcomeRefit<'f> {
         let m = self.models[i].as_ref().map_err(Clone::clone)?;
         let d = proj.c.ncols();
         let k = m.kept.len();
-        let mut inner = Mat::<f64>::zeros(k, d);
-        matmul(
-            inner.as_mut(),
-            Accum::Replace,
-            m.q2.transpose(),
-            proj.c.as_ref(),
-            1.0,
-            Par::Seq,
-        );
-        let mut coef = Mat::<f64>::zeros(k, d);
-        matmul(
-            coef.as_mut(),
-            Accum::Replace,
-            m.tinv.as_ref(),
-            inner.as_ref(),
-            1.0,
-            Par::Seq,
-        );
+        let inner = seq_product(m.q2.transpose(), proj.c.as_ref());
+        let mut coef = seq_product(m.tinv.as_ref(), inner.as_ref());
         for q in 0..k {
             let s = m.scales[q];
             coef.row_mut(q).iter_mut().for_each(|b| *b /= s);
@@ -232,19 +199,7 @@ pub struct Projected {
 /// Small QR of R_X[:, kept] and the pieces a refit needs.
 fn prepare(r: MatRef<'_, f64>, rows: usize, kept: &[usize], scales: &[f64]) -> RefitModel {
     let k = kept.len();
-    let mut z = Mat::from_fn(rows, k, |i, q| r[(i, kept[q])]);
-    let coeff = householder_in_place(&mut z);
-    let q2 = thin_q(z.as_ref(), coeff.as_ref(), k);
-    let t: Vec<f64> = (0..k * k)
-        .map(|idx| {
-            let (i, j) = (idx % k, idx / k);
-            if i <= j {
-                z[(i, j)]
-            } else {
-                0.0
-            }
-        })
-        .collect();
+    let (q2, t) = thin_qr(Mat::from_fn(rows, k, |i, q| r[(i, kept[q])]).as_ref());
     let mut tinv_flat = vec![0.0; k * k];
     upper_inverse(&t, k, &mut tinv_flat);
     let tinv = Mat::from_fn(k, k, |i, j| tinv_flat[i + j * k]);

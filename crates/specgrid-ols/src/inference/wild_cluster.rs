@@ -12,11 +12,10 @@
 //! (s = s_y − β₀s_x, C = C_y − β₀C_x), so after one pass the bootstrap t of every draw at any β₀
 //! costs O(1): inverting the test is cheap.
 
-use faer::linalg::matmul::matmul;
-use faer::{Accum, Mat, MatRef, Par};
+use faer::{Mat, MatRef};
 
 use crate::api::{Design, ModelSpec};
-use crate::dense::{householder_in_place, thin_q};
+use crate::dense::{seq_product, thin_qr};
 use crate::small_qr::upper_inverse;
 use crate::student::two_sided_p;
 
@@ -202,25 +201,12 @@ pub fn wild_cluster_test(
             }
         }
         // C = diag(s) − A'·K·B.
-        let mut kb = Mat::<f64>::zeros(k, g);
-        matmul(
-            kb.as_mut(),
-            Accum::Replace,
-            kinv.as_ref(),
-            b.as_ref(),
-            1.0,
-            Par::Seq,
-        );
-        let mut c = Mat::<f64>::zeros(g, g);
-        matmul(
-            c.as_mut(),
-            Accum::Replace,
+        let mut c = seq_product(
             amat.transpose(),
-            kb.as_ref(),
-            -1.0,
-            Par::Seq,
+            seq_product(kinv.as_ref(), b.as_ref()).as_ref(),
         );
         for h in 0..g {
+            c.row_mut(h).iter_mut().for_each(|v| *v = -*v);
             c[(h, h)] += s[h];
         }
         (s, c)
@@ -286,10 +272,7 @@ fn reduce(
     v: MatRef<'_, f64>,
 ) -> Vec<[f64; 5]> {
     let (g, b) = (v.nrows(), v.ncols());
-    let mut py = Mat::<f64>::zeros(g, b);
-    let mut px = Mat::<f64>::zeros(g, b);
-    matmul(py.as_mut(), Accum::Replace, cy, v, 1.0, Par::Seq);
-    matmul(px.as_mut(), Accum::Replace, cx, v, 1.0, Par::Seq);
+    let (py, px) = (seq_product(cy, v), seq_product(cx, v));
     (0..b)
         .map(|d| {
             let vc = v.col(d);
@@ -351,18 +334,13 @@ impl LeastSquares {
     /// `None` when a diagonal of R is negligible (collinear columns).
     fn new(x: MatRef<'_, f64>) -> Option<LeastSquares> {
         let k = x.ncols();
-        let mut z = x.to_owned();
-        let coeff = householder_in_place(&mut z);
-        let q = thin_q(z.as_ref(), coeff.as_ref(), k);
-        let mut r = vec![0.0; k * k];
-        for j in 0..k {
-            let norm = x.col(j).norm_l2();
-            if z[(j, j)].abs() <= RANK_TOL * norm.max(f64::MIN_POSITIVE) {
-                return None;
-            }
-            for i in 0..=j {
-                r[i + j * k] = z[(i, j)];
-            }
+        let (q, r) = thin_qr(x);
+        let collinear = (0..k).any(|j| {
+            let norm = x.col(j).norm_l2().max(f64::MIN_POSITIVE);
+            r[j + j * k].abs() <= RANK_TOL * norm
+        });
+        if collinear {
+            return None;
         }
         let mut inv = vec![0.0; k * k];
         upper_inverse(&r, k, &mut inv);
@@ -374,17 +352,7 @@ impl LeastSquares {
 
     /// (X'X)⁻¹ = R⁻¹R⁻ᵀ.
     fn xtx_inverse(&self) -> Mat<f64> {
-        let k = self.rinv.nrows();
-        let mut out = Mat::<f64>::zeros(k, k);
-        matmul(
-            out.as_mut(),
-            Accum::Replace,
-            self.rinv.as_ref(),
-            self.rinv.transpose(),
-            1.0,
-            Par::Seq,
-        );
-        out
+        seq_product(self.rinv.as_ref(), self.rinv.transpose())
     }
 
     /// v − Q·Q'v.
