@@ -1,4 +1,5 @@
-//! Outcome-only refits and the joint test over the curve (Simonsohn, Simmons & Nelson 2020).
+//! Outcome-only refits, the joint test over the curve (Simonsohn, Simmons & Nelson 2020) and
+//! the wild cluster bootstrap's handling of cluster codes.
 //! Refits are checked against fresh, independent fits of the same models on the same new
 //! outcomes (`fit_independent`, itself checked against statsmodels and NIST StRD elsewhere).
 //! Designs are seeded and invented; they are inputs only, never check values.
@@ -9,7 +10,9 @@ use faer::Mat;
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, StandardNormal};
-use specgrid_ols::inference::{joint_curve_test, CurveModel, JointOptions, OutcomeRefit};
+use specgrid_ols::inference::{
+    joint_curve_test, wild_cluster_test, CurveModel, JointOptions, OutcomeRefit, WildClusterOptions,
+};
 use specgrid_ols::{fit_independent, Covariance, Design, FitOptions, ModelSpec, SharedFactor};
 use statrs::distribution::{ContinuousCDF, Normal};
 use support::{close, random_design, random_models};
@@ -245,4 +248,73 @@ fn joint_test_refuses_a_focus_outside_the_model() {
     let factor = SharedFactor::new_for_refits(&design).unwrap();
     let err = joint_curve_test(&factor, &models, &classical(), &JointOptions::default());
     assert!(err.is_err());
+}
+
+#[test]
+fn joint_test_with_cluster_weights_repeats_and_ignores_thread_count() {
+    // Same seed → same numbers, whatever the pool size (draws are split in fixed batches and
+    // each draw has its own ChaCha20 stream).
+    // Focus: the first level indicator (column 5), which has no effect on the outcomes, so the
+    // p-values are not all at their floor 1/(1 + B) and a new seed must move them.
+    let design = random_design(21, 400, 4, 3, 15, 6);
+    let models: Vec<CurveModel> = random_models(22, &design, 40, 4, 3)
+        .into_iter()
+        .filter(|m| m.columns.contains(&5))
+        .map(|m| CurveModel::tracking(m.columns, m.outcome, 5))
+        .collect();
+    assert!(models.len() >= 10);
+    let factor = SharedFactor::new_for_refits(&design).unwrap();
+    let opts = JointOptions {
+        draws: 120,
+        cluster_dim: Some(0),
+        ..JointOptions::default()
+    };
+    let run = |threads: usize| {
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap()
+            .install(|| joint_curve_test(&factor, &models, &classical(), &opts).unwrap())
+    };
+    let (one, two) = (run(1), run(2));
+    assert_eq!(one, two);
+    assert_eq!(one.draws, 120);
+    // A different seed gives other draws (the observed statistics stay).
+    let other = joint_curve_test(
+        &factor,
+        &models,
+        &classical(),
+        &JointOptions {
+            seed: 5,
+            ..opts.clone()
+        },
+    )
+    .unwrap();
+    assert_eq!(other.observed, one.observed);
+    assert!(
+        (other.p_median, other.p_share, other.p_stouffer)
+            != (one.p_median, one.p_share, one.p_stouffer)
+    );
+}
+
+#[test]
+fn wild_cluster_ignores_empty_cluster_codes() {
+    // Codes 0..6 versus the same clusters numbered 0, 2, …, 10 out of a range of 12: the empty
+    // codes must not enter the enumeration (2^6 vectors, not 2^12) nor change the p-value.
+    let design = random_design(31, 120, 2, 2, 6, 4);
+    let model = ModelSpec {
+        columns: vec![0, 1, 2],
+        outcome: 0,
+        tracked: vec![1],
+    };
+    let opts = WildClusterOptions::default();
+    let compact = wild_cluster_test(&design, &model, 1, 0, 0.0, &opts).unwrap();
+    let mut sparse = design.clone();
+    sparse.clusters[0].codes.iter_mut().for_each(|c| *c *= 2);
+    sparse.clusters[0].count = 12;
+    let spread = wild_cluster_test(&sparse, &model, 1, 0, 0.0, &opts).unwrap();
+    assert_eq!(compact.draws, 64);
+    assert_eq!(spread.draws, 64);
+    assert_eq!(compact.p_value, spread.p_value);
+    assert_eq!(compact.clusters, 6);
 }
