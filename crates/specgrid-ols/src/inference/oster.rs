@@ -6,10 +6,12 @@
 //! focus after partialling out the long model's controls; and R_max.
 //!
 //! THE EXPRESSIONS BELOW ARE WRITTEN FROM MEMORY of the paper (Proposition 2 and its cubic;
-//! Proposition 1 for the approximation), not copied from it. Two recollections were checked
-//! against each other: δ is linear in the cubic's coefficients, and solving the cubic for δ gives
-//! exactly the recalled δ formula (tests below; tests/reference/inference/make_fixtures.py
-//! recomputes every input from raw data with numpy and the roots with numpy.roots).
+//! Proposition 1 for the approximation), not copied from it. Checks (tests below): the two
+//! recollections agree (δ is linear in the cubic's coefficients, and solving the cubic for δ
+//! gives the δ formula); and, independently of the recollection, in Oster's model with
+//! population moments the true δ and R_max give back the true β and δ(true β) = true δ.
+//! tests/reference/inference/make_fixtures.py recomputes every input from raw data with numpy
+//! and the roots with numpy.roots.
 //!
 //! With ν = β̃ − β, Δβ = β̊ − β̃, ΔR = R̃² − R̊², ΔR_max = R_max − R̃²:
 //!   δ(β) = [ν·ΔR·σ_y²·τ_x + ν·σ_x²·τ_x·Δβ² + 2ν²·τ_x·Δβ·σ_x² + ν³·(τ_x·σ_x² − τ_x²)]
@@ -262,6 +264,74 @@ mod tests {
         }
         // The root closest to β̃ is near the first-order approximation here.
         assert!((r.beta_star - r.beta_star_approx).abs() < 0.1, "{r:?}");
+    }
+
+    /// Population moments of Oster's model (her section 3, as recalled): Y = βX + W₁ + W₂ + ε
+    /// with W₁ (observed index), W₂ (unobserved index), ε mutually uncorrelated, and
+    /// X = a₁W₁ + a₂W₂ + u. Proportional selection then holds with δ = (σ_2X/σ_22)/(σ_1X/σ_11) =
+    /// a₂/a₁, and R_max is the R² of Y on X, W₁ and W₂. Returns the inputs and the true δ.
+    fn population(
+        beta: f64,
+        a1: f64,
+        a2: f64,
+        s1: f64,
+        s2: f64,
+        su: f64,
+        se: f64,
+    ) -> (OsterInputs, f64) {
+        let var_x = a1 * a1 * s1 + a2 * a2 * s2 + su;
+        let cov_yx = beta * var_x + a1 * s1 + a2 * s2;
+        let cov_yw1 = beta * a1 * s1 + s1;
+        let var_y = beta * beta * var_x + s1 + s2 + 2.0 * beta * (a1 * s1 + a2 * s2) + se;
+        // Long regression of Y on X and W₁: the 2 × 2 normal equations.
+        let (m11, m12, m22) = (var_x, a1 * s1, s1);
+        let det = m11 * m22 - m12 * m12;
+        let b = (m22 * cov_yx - m12 * cov_yw1) / det;
+        let c = (m11 * cov_yw1 - m12 * cov_yx) / det;
+        let inputs = OsterInputs {
+            short_estimate: cov_yx / var_x,
+            short_r2: cov_yx * cov_yx / (var_x * var_y),
+            long_estimate: b,
+            long_r2: (b * cov_yx + c * cov_yw1) / var_y,
+            var_y,
+            var_x,
+            // Residual variance of X after W₁.
+            var_x_resid: a2 * a2 * s2 + su,
+            r_max: Some(1.0 - se / var_y),
+        };
+        (inputs, a2 / a1)
+    }
+
+    #[test]
+    fn recovers_the_true_beta_and_delta_in_the_population() {
+        // Independent of the recollection: in Oster's model with population moments, the true
+        // δ and R_max must make β* equal the true β, and δ(true β) equal the true δ.
+        for &(beta, a1, a2, s1, s2, su, se) in &[
+            (0.5, 0.8, 0.8, 1.0, 1.5, 1.0, 2.0),
+            (0.5, 0.6, 1.2, 1.0, 0.7, 1.3, 1.0),
+            (-0.3, 1.0, 0.4, 2.0, 1.0, 0.5, 3.0),
+            (-0.3, 0.5, 0.5, 1.0, 2.0, 1.0, 1.5),
+        ] {
+            let (inp, delta) = population(beta, a1, a2, s1, s2, su, se);
+            assert!(
+                (inp.delta_for(beta) - delta).abs() < 1e-9 * delta.abs().max(1.0),
+                "{:?}",
+                (inp.delta_for(beta), delta)
+            );
+            let [a, b, c, d] = inp.cubic(delta);
+            let nu = inp.long_estimate - beta;
+            let value = ((a * nu + b) * nu + c) * nu + d;
+            assert!(value.abs() < 1e-10 * (d.abs() + c.abs()), "{value}");
+            if delta == 1.0 {
+                let r = oster(&inp).unwrap();
+                assert!(
+                    r.beta_star_roots.iter().any(|&x| (x - beta).abs() < 1e-9),
+                    "{r:?}"
+                );
+                // Here the root closest to β̃ (our stated choice) is the true one.
+                assert!((r.beta_star - beta).abs() < 1e-9, "{r:?}");
+            }
+        }
     }
 
     #[test]
