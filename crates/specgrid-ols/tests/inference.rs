@@ -318,3 +318,32 @@ fn wild_cluster_ignores_empty_cluster_codes() {
     assert_eq!(compact.p_value, spread.p_value);
     assert_eq!(compact.clusters, 6);
 }
+
+#[test]
+fn joint_test_leaves_out_a_model_whose_untracked_focus_was_dropped() {
+    // Column 5 is an exact copy of the focus; a model that lists it before the focus and does
+    // not track the focus keeps the copy and drops the focus: it must be left out, not panic.
+    let (mut design, mut models) = curve_design(9, 80, 0.5, 1.0);
+    let n = design.x.nrows();
+    design.x = Mat::from_fn(n, 6, |i, j| design.x[(i, j.min(4))]);
+    for i in 0..n {
+        design.x[(i, 5)] = design.x[(i, 1)];
+    }
+    design.x_names.push("focus_copy".into());
+    models.push(CurveModel {
+        spec: ModelSpec {
+            columns: vec![0, 5, 1],
+            outcome: 0,
+            tracked: vec![],
+        },
+        focus: 1,
+    });
+    let factor = SharedFactor::new_for_refits(&design).unwrap();
+    let opts = JointOptions {
+        draws: 20,
+        ..JointOptions::default()
+    };
+    let t = joint_curve_test(&factor, &models, &classical(), &opts).unwrap();
+    assert_eq!(t.models_left_out, vec![8]);
+    assert_eq!(t.models_used, 8);
+}

@@ -97,7 +97,8 @@ pub struct JointTest {
     pub draws: usize,
     /// Models entering the statistics.
     pub models_used: usize,
-    /// Indices (into the request) of models that could not be fitted and were left out.
+    /// Indices (into the request) of models left out: not fitted, or their focus column was
+    /// dropped as collinear.
     pub models_left_out: Vec<usize>,
     /// +1 or −1: the sign of the observed median (+1 when it is 0).
     pub dominant_sign: f64,
@@ -150,17 +151,16 @@ pub fn joint_curve_test_from_fits(
     let design = factor.design();
     let groups = check_request(design, models, fits, opts)?;
     let refit = OutcomeRefit::from_fits(factor, fits)?;
-    let used: Vec<usize> = (0..models.len())
-        .filter(|&i| refit.model_error(i).is_none())
-        .collect();
+    // A model enters when it was fitted and kept its focus column (an untracked focus can be
+    // dropped as collinear without refusing the model).
+    let usable = |i: usize| refit.kept(i).is_some_and(|k| k.contains(&models[i].focus));
+    let used: Vec<usize> = (0..models.len()).filter(|&i| usable(i)).collect();
     if used.is_empty() {
         return Err(InferenceError::Invalid(
-            "no model of the curve could be fitted".into(),
+            "no model of the curve could be fitted with its focus column".into(),
         ));
     }
-    let models_left_out = (0..models.len())
-        .filter(|&i| refit.model_error(i).is_some())
-        .collect();
+    let models_left_out = (0..models.len()).filter(|&i| !usable(i)).collect();
     // Outcomes in use, and per outcome its projection on the union span and residual.
     let mut outcomes: Vec<usize> = used.iter().map(|&i| models[i].spec.outcome).collect();
     outcomes.sort_unstable();
@@ -340,7 +340,7 @@ fn model_stats(
         .kept
         .iter()
         .position(|&c| c == model.focus)
-        .expect("focus kept: a dropped tracked focus refuses the model");
+        .expect("only models that kept their focus are used");
     (0..batch.rss.len())
         .map(|d| {
             let estimate = batch.coef[(q, d)] - null_shift;

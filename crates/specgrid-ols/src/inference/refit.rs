@@ -123,6 +123,11 @@ impl<'f> OutcomeRefit<'f> {
         self.models[i].as_ref().err()
     }
 
+    /// Kept union columns of model `i` (model order), if it can be refitted.
+    pub fn kept(&self, i: usize) -> Option<&[usize]> {
+        self.models[i].as_ref().ok().map(|m| m.kept.as_slice())
+    }
+
     /// Projects a batch of outcome vectors (n × d, data units) onto the union basis:
     /// c = Q_X'y* (p' × d) and the out-of-span residual sums of squares ‖y* − Q_X·c‖².
     pub fn project(&self, ys: MatRef<'_, f64>) -> Projected {
