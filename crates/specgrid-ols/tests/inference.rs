@@ -182,6 +182,12 @@ fn joint_test_observed_statistics_by_hand_and_strong_effect() {
         assert!((p - 0.01).abs() < 1e-15, "{test:?}");
     }
     assert!(test.p_share <= 0.1, "{test:?}");
+    // The null range of the median sits around zero and excludes the observed median.
+    assert!(
+        test.null_low.median < 0.0 && 0.0 < test.null_high.median,
+        "{test:?}"
+    );
+    assert!(test.null_high.median < test.observed.median);
     // Observed statistics from the independent fits: median of the 8 estimates (mean of the
     // 4th and 5th), all significant and positive, Stouffer Σz/√8 with z = Φ⁻¹(1 − p/2).
     let normal = Normal::standard();

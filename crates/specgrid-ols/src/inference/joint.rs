@@ -111,6 +111,11 @@ pub struct JointTest {
     pub p_share: f64,
     /// As `p_median`, for |Stouffer's aggregate z|.
     pub p_stouffer: f64,
+    /// 2.5% quantile of each statistic over the null draws (Hyndman & Fan 1996, definition 7).
+    pub null_low: CurveStats,
+    /// 97.5% quantile of each statistic over the null draws: with `null_low`, the range a curve
+    /// without any effect covers in 95% of draws.
+    pub null_high: CurveStats,
 }
 
 /// Per-model statistics of one draw (or of the observed data).
@@ -233,6 +238,8 @@ pub fn joint_curve_test_from_fits(
         p_median: p_of(&|s| s.median.abs() >= observed.median.abs()),
         p_share: p_of(&|s| s.share_significant >= observed.share_significant),
         p_stouffer: p_of(&|s| s.stouffer_z.abs() >= observed.stouffer_z.abs()),
+        null_low: null_quantile(&draws, 0.025),
+        null_high: null_quantile(&draws, 0.975),
     })
 }
 
@@ -388,16 +395,46 @@ fn dominant(median: f64) -> f64 {
     }
 }
 
-/// Median (mean of the two middle values for an even count).
-pub(crate) fn median(mut v: Vec<f64>) -> f64 {
+/// Quantile `q` of each statistic over the draws.
+fn null_quantile(draws: &[CurveStats], q: f64) -> CurveStats {
+    let of = |f: fn(&CurveStats) -> f64| quantile(draws.iter().map(f).collect(), q);
+    CurveStats {
+        median: of(|s| s.median),
+        share_significant: of(|s| s.share_significant),
+        stouffer_z: of(|s| s.stouffer_z),
+    }
+}
+
+/// Quantile by linear interpolation between order statistics (Hyndman & Fan 1996,
+/// definition 7, the report's convention).
+fn quantile(mut v: Vec<f64>, q: f64) -> f64 {
     v.sort_by(f64::total_cmp);
-    let m = v.len();
-    if m == 0 {
+    if v.is_empty() {
         return f64::NAN;
     }
-    if m % 2 == 1 {
-        v[m / 2]
-    } else {
-        0.5 * (v[m / 2 - 1] + v[m / 2])
+    let h = (v.len() - 1) as f64 * q;
+    let (lo, frac) = (h.floor() as usize, h - h.floor());
+    let hi = (lo + 1).min(v.len() - 1);
+    v[lo] + frac * (v[hi] - v[lo])
+}
+
+/// Median: the 50% quantile (mean of the two middle values for an even count).
+fn median(v: Vec<f64>) -> f64 {
+    quantile(v, 0.5)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn quantiles_follow_definition_7() {
+        // numpy.quantile's default (linear) gives 1.75 and 3.25 for [1, 2, 3, 4] at 0.25 and
+        // 0.75 (Hyndman & Fan 1996, definition 7; values by hand: h = 3q).
+        assert_eq!(quantile(vec![4.0, 1.0, 3.0, 2.0], 0.25), 1.75);
+        assert_eq!(quantile(vec![4.0, 1.0, 3.0, 2.0], 0.75), 3.25);
+        assert_eq!(median(vec![5.0, 1.0, 3.0]), 3.0);
+        assert_eq!(median(vec![1.0, 2.0, 4.0, 8.0]), 3.0);
+        assert!(median(Vec::new()).is_nan());
     }
 }
