@@ -5,7 +5,7 @@ use toml::de::{DeTable, DeValue};
 
 use super::values::{Reader, Val};
 use crate::plan::{EffectScale, EvaluationValues, ReportSettings};
-use crate::problem::{quoted_list, suggestion};
+use crate::problem::suggestion;
 use crate::study::Study;
 
 const KEYS: &[&str] = &["scale", "evaluate_at", "baseline"];
@@ -127,15 +127,7 @@ pub(crate) fn check_report(
     let mut choices = vec![0; dimensions.len()];
     for (dim, dim_at, option, option_at) in pairs {
         let Some(d) = dimensions.iter().position(|d| d.name == dim) else {
-            r.report(
-                dim_at,
-                format!("the baseline names `{dim}`, which is not a decision of this study"),
-                Some(format!(
-                    "{} (decisions: {})",
-                    suggestion(&dim, &dim_names),
-                    quoted_list(&dim_names)
-                )),
-            );
+            super::settings::unknown_decision(r, dim_at, "the baseline", &dim, &dim_names);
             continue;
         };
         let options: Vec<&str> = dimensions[d].options.iter().map(String::as_str).collect();

@@ -300,15 +300,7 @@ pub(crate) fn check_skips(
         let mut matches = Vec::new();
         for (dim, dim_at, options) in rule.pairs {
             let Some(d) = dimensions.iter().find(|d| d.name == dim) else {
-                r.report(
-                    dim_at,
-                    format!("skip rule names `{dim}`, which is not a decision of this study"),
-                    Some(format!(
-                        "{} (decisions: {})",
-                        suggestion(&dim, &dim_names),
-                        quoted_list(&dim_names)
-                    )),
-                );
+                unknown_decision(r, dim_at, "skip rule", &dim, &dim_names);
                 continue;
             };
             let option_names: Vec<&str> = d.options.iter().map(String::as_str).collect();
@@ -334,4 +326,23 @@ pub(crate) fn check_skips(
         });
     }
     (r.problem_count() == before).then_some(rules)
+}
+
+/// Reports a decision name that is not one of the study's, with a suggestion and the list.
+pub(crate) fn unknown_decision(
+    r: &mut Reader<'_>,
+    at: usize,
+    who: &str,
+    dim: &str,
+    dim_names: &[&str],
+) {
+    r.report(
+        at,
+        format!("{who} names `{dim}`, which is not a decision of this study"),
+        Some(format!(
+            "{} (decisions: {})",
+            suggestion(dim, dim_names),
+            quoted_list(dim_names)
+        )),
+    );
 }
