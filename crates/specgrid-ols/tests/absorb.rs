@@ -13,8 +13,8 @@ use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, StandardNormal};
 use specgrid_ols::{
-    absorb, AbsorbError, AbsorbOptions, ClusterIds, Covariance, Design, FitOptions, ModelError,
-    ModelFit, ModelSpec, RowWeights, SharedFactor, WeightKind,
+    absorb, AbsorbError, AbsorbOptions, AbsorbedDesign, ClusterIds, Covariance, Design, FitOptions,
+    ModelError, ModelFit, ModelSpec, RowWeights, SharedFactor, WeightKind,
 };
 use support::close;
 
@@ -293,16 +293,39 @@ fn tracked_model(columns: Vec<usize>) -> ModelSpec {
     }
 }
 
-#[test]
-fn one_way_matches_explicit_indicators_for_every_covariance() {
-    let p = panel(7001, 24, 10, false);
-    let prepared = absorb(
+/// The x1, x2 slopes (union columns 1, 2 of [`Panel::absorbed_input`]) on an absorbed design.
+fn slopes_fit(prepared: &AbsorbedDesign, covs: &[Covariance]) -> Result<ModelFit, ModelError> {
+    SharedFactor::absorbed(prepared).unwrap().fit(
+        &ModelSpec {
+            columns: vec![1, 2],
+            outcome: 0,
+            tracked: vec![1, 2],
+        },
+        &options(covs),
+    )
+}
+
+/// Every column of an explicit-indicator design, x1 and x2 tracked.
+fn explicit_fit(factor: &SharedFactor<'_>, covs: &[Covariance]) -> ModelFit {
+    let cols: Vec<usize> = (0..factor.design().x.ncols()).collect();
+    factor.fit(&tracked_model(cols), &options(covs)).unwrap()
+}
+
+/// Absorbs the panel's unit (and period) effect, unweighted.
+fn absorb_panel(p: &Panel, two_way: bool) -> AbsorbedDesign {
+    absorb(
         &p.absorbed_input(),
-        &p.effects(false),
+        &p.effects(two_way),
         None,
         &AbsorbOptions::default(),
     )
-    .unwrap();
+    .unwrap()
+}
+
+#[test]
+fn one_way_matches_explicit_indicators_for_every_covariance() {
+    let p = panel(7001, 24, 10, false);
+    let prepared = absorb_panel(&p, false);
     assert_eq!(prepared.info.absorbed_params, 24);
     assert_eq!(prepared.info.sweeps, 1);
     // Region (unit / 5) nests the unit effect; g1 does not.
@@ -322,11 +345,7 @@ fn one_way_matches_explicit_indicators_for_every_covariance() {
     assert_eq!(fit_a.dropped, vec![0]);
     assert_eq!(fit_a.absorbed_params, 24);
     let explicit = p.explicit(&prepared.info.rows_kept, false);
-    let cols: Vec<usize> = (0..explicit.x.ncols()).collect();
-    let fit_e = SharedFactor::new(&explicit)
-        .unwrap()
-        .fit(&tracked_model(cols), &options(&ALL_ONE_WAY))
-        .unwrap();
+    let fit_e = explicit_fit(&SharedFactor::new(&explicit).unwrap(), &ALL_ONE_WAY);
     let n = fit_e.n_obs;
     // Nesting rule for region: the 24 unit parameters leave k (k = 2 + 24 explicit).
     let mut ratio = vec![1.0; ALL_ONE_WAY.len()];
@@ -352,13 +371,7 @@ fn one_way_matches_explicit_indicators_for_every_covariance() {
 #[test]
 fn two_way_unbalanced_disconnected_matches_explicit_indicators() {
     let p = panel(7002, 20, 12, true);
-    let prepared = absorb(
-        &p.absorbed_input(),
-        &p.effects(true),
-        None,
-        &AbsorbOptions::default(),
-    )
-    .unwrap();
+    let prepared = absorb_panel(&p, true);
     // Two islands: 20 + 12 levels − 2 components (by construction).
     assert_eq!(prepared.info.components, Some(2));
     assert_eq!(prepared.info.absorbed_params, 30);
@@ -377,23 +390,9 @@ fn two_way_unbalanced_disconnected_matches_explicit_indicators() {
         Covariance::Cluster { dim: 2 },
         Covariance::Cluster { dim: 4 },
     ];
-    let fit_a = SharedFactor::absorbed(&prepared)
-        .unwrap()
-        .fit(
-            &ModelSpec {
-                columns: vec![1, 2],
-                outcome: 0,
-                tracked: vec![1, 2],
-            },
-            &options(&covs),
-        )
-        .unwrap();
+    let fit_a = slopes_fit(&prepared, &covs).unwrap();
     let explicit = p.explicit(&prepared.info.rows_kept, true);
-    let cols: Vec<usize> = (0..explicit.x.ncols()).collect();
-    let fit_e = SharedFactor::new(&explicit)
-        .unwrap()
-        .fit(&tracked_model(cols), &options(&covs))
-        .unwrap();
+    let fit_e = explicit_fit(&SharedFactor::new(&explicit).unwrap(), &covs);
     // The engine found the same rank: two indicator columns dropped as collinear.
     assert_eq!(fit_e.dropped.len(), 2);
     let n = fit_e.n_obs;
@@ -403,17 +402,7 @@ fn two_way_unbalanced_disconnected_matches_explicit_indicators() {
     ratio[5] = cr1_tail(n, 20) / cr1_tail(n, 32);
     assert_fwl(&fit_a, &fit_e, &covs, &ratio, Some((6, [4, 7, 8])));
     // HC2/HC3 with two absorbed sets are refused with a reason, not given a wrong number.
-    let err = SharedFactor::absorbed(&prepared)
-        .unwrap()
-        .fit(
-            &ModelSpec {
-                columns: vec![1, 2],
-                outcome: 0,
-                tracked: vec![1],
-            },
-            &options(&[Covariance::Hc2]),
-        )
-        .unwrap_err();
+    let err = slopes_fit(&prepared, &[Covariance::Hc2]).unwrap_err();
     assert!(matches!(err, ModelError::InvalidRequest(ref m) if m.contains("HC2/HC3")));
 }
 
@@ -432,17 +421,7 @@ fn analytic_weights_with_effects_match_weighted_explicit_indicators() {
         &AbsorbOptions::default(),
     )
     .unwrap();
-    let fit_a = SharedFactor::absorbed(&prepared)
-        .unwrap()
-        .fit(
-            &ModelSpec {
-                columns: vec![1, 2],
-                outcome: 0,
-                tracked: vec![1, 2],
-            },
-            &options(&ALL_ONE_WAY),
-        )
-        .unwrap();
+    let fit_a = slopes_fit(&prepared, &ALL_ONE_WAY).unwrap();
     let rows = &prepared.info.rows_kept;
     let explicit = p.explicit(rows, false);
     let we = RowWeights {
@@ -450,11 +429,7 @@ fn analytic_weights_with_effects_match_weighted_explicit_indicators() {
         ..w
     };
     let weighted = absorb(&explicit, &[], Some(&we), &AbsorbOptions::default()).unwrap();
-    let cols: Vec<usize> = (0..explicit.x.ncols()).collect();
-    let fit_e = SharedFactor::absorbed(&weighted)
-        .unwrap()
-        .fit(&tracked_model(cols), &options(&ALL_ONE_WAY))
-        .unwrap();
+    let fit_e = explicit_fit(&SharedFactor::absorbed(&weighted).unwrap(), &ALL_ONE_WAY);
     let n = fit_e.n_obs;
     let mut ratio = vec![1.0; ALL_ONE_WAY.len()];
     ratio[5] = cr1_tail(n, 2) / cr1_tail(n, 20);
@@ -681,13 +656,7 @@ fn too_few_sweeps_is_an_error_naming_the_effects() {
 #[test]
 fn tracked_column_absorbed_by_the_effects_is_refused() {
     let p = panel(7008, 12, 6, false);
-    let prepared = absorb(
-        &p.absorbed_input(),
-        &p.effects(false),
-        None,
-        &AbsorbOptions::default(),
-    )
-    .unwrap();
+    let prepared = absorb_panel(&p, false);
     let err = SharedFactor::absorbed(&prepared)
         .unwrap()
         .fit(

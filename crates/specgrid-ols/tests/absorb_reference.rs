@@ -97,19 +97,7 @@ fn load(case: &str) -> Fixture {
 }
 
 fn covariance(c: &Cov) -> Covariance {
-    match (c.kind.as_str(), c.dims.as_slice()) {
-        ("classical", []) => Covariance::Classical,
-        ("hc0", []) => Covariance::Hc0,
-        ("hc1", []) => Covariance::Hc1,
-        ("hc2", []) => Covariance::Hc2,
-        ("hc3", []) => Covariance::Hc3,
-        ("cluster", [d]) => Covariance::Cluster { dim: *d },
-        ("two_way_cluster", [a, b]) => Covariance::TwoWayCluster {
-            first: *a,
-            second: *b,
-        },
-        other => panic!("no engine counterpart for {other:?}"),
-    }
+    support::fixture_covariance(&c.kind, &c.dims)
 }
 
 fn check_case(case: &str) {

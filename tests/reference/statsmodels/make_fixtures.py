@@ -50,13 +50,17 @@ def inference_block(res, label, dims, expected_df):
     if df != expected_df:
         raise SystemExit(f"{label}: statsmodels used t df {df}, expected {expected_df}")
     # Recompute the two-sided p-value from t and df to confirm which distribution it used.
+    # NaN entries (an indefinite two-way matrix, seen only in the indicator block of
+    # make_fixtures_fe.py's designs) are compared as NaN on both sides.
     recomputed = 2.0 * stats.t.sf(np.abs(res.tvalues), df)
-    if not np.allclose(recomputed, res.pvalues, rtol=1e-12, atol=0.0):
+    if not np.allclose(recomputed, res.pvalues, rtol=1e-12, atol=0.0, equal_nan=True):
         raise SystemExit(f"{label}: statsmodels p-values are not Student t with df {df}")
-    exog, endog = res.model.exog, res.model.endog
+    # The whitened design: for OLS it is the design itself; for WLS, √w·x and √w·y, on which
+    # statsmodels builds every robust covariance.
+    exog, endog = res.model.wexog, res.model.wendog
     groups = res.cov_kwds.get("groups") if dims else None
     textbook = textbook_se(exog, endog, label, None if groups is None else np.asarray(groups))
-    if not np.allclose(textbook, res.bse, rtol=1e-9, atol=0.0):
+    if not np.allclose(textbook, res.bse, rtol=1e-9, atol=0.0, equal_nan=True):
         raise SystemExit(f"{label}: statsmodels bse {res.bse} differ from the formula {textbook}")
     ci = np.asarray(res.conf_int(alpha=1.0 - CONFIDENCE_LEVEL))
     return {

@@ -21,38 +21,8 @@ import numpy as np
 import scipy
 import statsmodels
 import statsmodels.api as sm
-from scipy import stats
 
-from make_fixtures import CONFIDENCE_LEVEL, HC_TYPES, cluster_codes, rounded, textbook_se
-
-
-def inference_block(res, label, dims, expected_df):
-    """As make_fixtures.inference_block, on the whitened design (WLS robust covariances use it)."""
-    df = float(getattr(res, "df_resid_inference", res.df_resid))
-    if df != expected_df:
-        raise SystemExit(f"{label}: statsmodels used t df {df}, expected {expected_df}")
-    # Two-way V can be indefinite in the indicator block (NaN there); the compared slope columns
-    # must be finite (checked in fit_model), the rest is compared where defined.
-    recomputed = 2.0 * stats.t.sf(np.abs(res.tvalues), df)
-    if not np.allclose(recomputed, res.pvalues, rtol=1e-12, atol=0.0, equal_nan=True):
-        raise SystemExit(f"{label}: statsmodels p-values are not Student t with df {df}")
-    groups = res.cov_kwds.get("groups") if dims else None
-    textbook = textbook_se(
-        res.model.wexog, res.model.wendog, label, None if groups is None else np.asarray(groups)
-    )
-    if not np.allclose(textbook, res.bse, rtol=1e-9, atol=0.0, equal_nan=True):
-        raise SystemExit(f"{label}: statsmodels bse {res.bse} differ from the formula {textbook}")
-    ci = np.asarray(res.conf_int(alpha=1.0 - CONFIDENCE_LEVEL))
-    return {
-        "kind": label,
-        "dims": dims,
-        "df": df,
-        "bse": np.asarray(res.bse).tolist(),
-        "tvalues": np.asarray(res.tvalues).tolist(),
-        "pvalues": np.asarray(res.pvalues).tolist(),
-        "ci_low": ci[:, 0].tolist(),
-        "ci_high": ci[:, 1].tolist(),
-    }
+from make_fixtures import CONFIDENCE_LEVEL, HC_TYPES, cluster_codes, inference_block, rounded
 
 
 def require_psd(v, label):
@@ -61,6 +31,26 @@ def require_psd(v, label):
     block is positive semi-definite, so the seeds were chosen to make it so (checked here)."""
     if np.linalg.eigvalsh(np.asarray(v)).min() < 0.0:
         raise SystemExit(f"{label}: two-way matrix is indefinite; choose another seed")
+
+
+def covariance_blocks(ols, clusters, model, hc_types, df_resid, compared):
+    """Classical, the given HC types and the model's clusterings, each with use_t=True; the
+    two-way matrix must be positive semi-definite over the first `compared` coefficients."""
+    covs = [inference_block(ols.fit(use_t=True), "classical", [], float(df_resid))]
+    for t in hc_types:
+        res = ols.fit(cov_type=t, use_t=True)
+        covs.append(inference_block(res, t.lower(), [], float(df_resid)))
+    for dims in model["cluster_dims"]:
+        groups = np.column_stack([clusters[d]["codes"] for d in dims])
+        g = min(len(np.unique(groups[:, j])) for j in range(len(dims)))
+        if len(dims) == 1:
+            groups = groups[:, 0]
+        res = ols.fit(cov_type="cluster", cov_kwds={"groups": groups}, use_t=True)
+        kind = "cluster" if len(dims) == 1 else "two_way_cluster"
+        if len(dims) == 2:
+            require_psd(res.cov_params()[:compared, :compared], model["label"])
+        covs.append(inference_block(res, kind, dims, float(g - 1)))
+    return covs
 
 
 def indicators(codes, count, skip=()):
@@ -84,22 +74,8 @@ def fit_model(x, y, clusters, effects, weights, model):
     base = ols.fit()
     if not base.k_constant:
         raise SystemExit(f"{model['label']}: statsmodels did not see the implicit constant")
-    covs = [inference_block(ols.fit(use_t=True), "classical", [], float(n - k))]
     hc = HC_TYPES if len(effects) <= 1 else ["HC0", "HC1"]
-    for t in hc:
-        covs.append(inference_block(ols.fit(cov_type=t, use_t=True), t.lower(), [], float(n - k)))
-    for dims in model["cluster_dims"]:
-        if len(dims) == 1:
-            groups = clusters[dims[0]]["codes"]
-            g = len(np.unique(groups))
-            res = ols.fit(cov_type="cluster", cov_kwds={"groups": groups}, use_t=True)
-            covs.append(inference_block(res, "cluster", dims, float(g - 1)))
-        else:
-            groups = np.column_stack([clusters[d]["codes"] for d in dims])
-            g = min(len(np.unique(groups[:, 0])), len(np.unique(groups[:, 1])))
-            res = ols.fit(cov_type="cluster", cov_kwds={"groups": groups}, use_t=True)
-            require_psd(res.cov_params()[: len(cols), : len(cols)], model["label"])
-            covs.append(inference_block(res, "two_way_cluster", dims, float(g - 1)))
+    covs = covariance_blocks(ols, clusters, model, hc, n - k, len(cols))
     m = len(cols)
     for c in covs:
         for key in ("bse", "tvalues", "pvalues", "ci_low", "ci_high"):
@@ -254,20 +230,7 @@ def fit_plain(x, y, clusters, weights, model):
     endog = y[:, model["outcome"]]
     ols = sm.WLS(endog, exog, weights=weights["values"])
     base = ols.fit()
-    covs = [inference_block(ols.fit(use_t=True), "classical", [], float(n - k))]
-    for t in HC_TYPES:
-        covs.append(inference_block(ols.fit(cov_type=t, use_t=True), t.lower(), [], float(n - k)))
-    for dims in model["cluster_dims"]:
-        if len(dims) == 1:
-            groups = clusters[dims[0]]["codes"]
-            res = ols.fit(cov_type="cluster", cov_kwds={"groups": groups}, use_t=True)
-            covs.append(inference_block(res, "cluster", dims, float(len(np.unique(groups)) - 1)))
-        else:
-            groups = np.column_stack([clusters[d]["codes"] for d in dims])
-            g = min(len(np.unique(groups[:, 0])), len(np.unique(groups[:, 1])))
-            res = ols.fit(cov_type="cluster", cov_kwds={"groups": groups}, use_t=True)
-            require_psd(res.cov_params(), model["label"])
-            covs.append(inference_block(res, "two_way_cluster", dims, float(g - 1)))
+    covs = covariance_blocks(ols, clusters, model, HC_TYPES, n - k, k)
     return {
         "label": model["label"],
         "columns": cols,
