@@ -244,19 +244,25 @@ def one_way(case, seed, n_clusters, size_low, size_high):
     }
 
 
+def unbalanced_cells(rng, units, periods, keep):
+    """Unit and period labels of an unbalanced panel: each cell kept with probability `keep`,
+    and a kept cell doubled with probability 0.1."""
+    u_lab, p_lab = [], []
+    for u in range(units):
+        for p in range(periods):
+            if rng.uniform() < keep:
+                copies = 2 if rng.uniform() < 0.10 else 1
+                u_lab += [u] * copies
+                p_lab += [p] * copies
+    return np.array(u_lab), np.array(p_lab)
+
+
 def two_way_panel():
     """40 units x 25 periods, about 15% of cells missing and 10% doubled, unit and period shocks."""
     seed = 20261203
     rng = np.random.default_rng(seed)
     units, periods = 40, 25
-    u_lab, p_lab = [], []
-    for u in range(units):
-        for p in range(periods):
-            if rng.uniform() < 0.85:
-                copies = 2 if rng.uniform() < 0.10 else 1
-                u_lab += [u] * copies
-                p_lab += [p] * copies
-    u_lab, p_lab = np.array(u_lab), np.array(p_lab)
+    u_lab, p_lab = unbalanced_cells(rng, units, periods, 0.85)
     n = len(u_lab)
     u_shock = rng.normal(0.0, 1.0, units)
     p_shock = rng.normal(0.0, 0.8, periods)
@@ -395,9 +401,13 @@ def main():
         redundant_indicator(),
         redundant_indicator("indicators_span_constant"),
     ]
-    for case in cases:
-        doc = build(case)
-        path = args.out / f"{doc['case']}.json"
+    write_fixtures(args.out, (build(case) for case in cases))
+
+
+def write_fixtures(out, docs):
+    """Write each fixture document as compact JSON to OUT/<case>.json."""
+    for doc in docs:
+        path = out / f"{doc['case']}.json"
         with open(path, "w") as f:
             json.dump(doc, f, indent=None, separators=(",", ":"))
             f.write("\n")

@@ -12,9 +12,7 @@ Usage: make_fixtures_fe.py [--out DIR]   (default: the fixtures/ folder next to 
 """
 
 import argparse
-import json
 import platform
-import sys
 from pathlib import Path
 
 import numpy as np
@@ -22,7 +20,15 @@ import scipy
 import statsmodels
 import statsmodels.api as sm
 
-from make_fixtures import CONFIDENCE_LEVEL, HC_TYPES, cluster_codes, inference_block, rounded
+from make_fixtures import (
+    CONFIDENCE_LEVEL,
+    HC_TYPES,
+    cluster_codes,
+    inference_block,
+    rounded,
+    unbalanced_cells,
+    write_fixtures,
+)
 
 
 def require_psd(v, label):
@@ -100,14 +106,7 @@ def fit_model(x, y, clusters, effects, weights, model):
 def panel(seed, units, periods, two_way, weighted):
     """Unbalanced panel: each unit x period cell kept with prob. 0.8, doubled with prob. 0.1."""
     rng = np.random.default_rng(seed)
-    u_lab, p_lab = [], []
-    for u in range(units):
-        for p in range(periods):
-            if rng.uniform() < 0.8:
-                copies = 2 if rng.uniform() < 0.10 else 1
-                u_lab += [u] * copies
-                p_lab += [p] * copies
-    u_lab, p_lab = np.array(u_lab), np.array(p_lab)
+    u_lab, p_lab = unbalanced_cells(rng, units, periods, 0.8)
     n = len(u_lab)
     u_eff = rng.normal(0.0, 1.0, units)
     p_eff = rng.normal(0.0, 0.7, periods)
@@ -263,13 +262,7 @@ def main():
              "indicators; the engine absorbs both with the same weights.", 30, 10, True, True),
         weighted_only(),
     ]
-    for c in cases:
-        doc = build(c)
-        path = args.out / f"{doc['case']}.json"
-        with open(path, "w") as f:
-            json.dump(doc, f, indent=None, separators=(",", ":"))
-            f.write("\n")
-        print(f"wrote {path} ({path.stat().st_size // 1024} KB, {doc['n']} rows)", file=sys.stderr)
+    write_fixtures(args.out, (build(c) for c in cases))
 
 
 if __name__ == "__main__":

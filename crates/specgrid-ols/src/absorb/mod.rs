@@ -17,7 +17,7 @@ use rayon::prelude::*;
 
 use crate::api::{ClusterIds, Design, EngineError};
 use crate::dense::is_constant_nonzero;
-use crate::validate::check_design;
+use crate::validate::{check_codes, check_design};
 use demean::{demean_column, Convergence, Effect};
 pub use weights::{RowWeights, WeightKind};
 
@@ -207,19 +207,7 @@ pub fn absorb(
     check_design(design)?;
     let n = design.x.nrows();
     for e in effects {
-        if e.codes.len() != n {
-            return Err(AbsorbError::Shape(format!(
-                "effect `{}` has {} codes for {n} rows",
-                e.name,
-                e.codes.len()
-            )));
-        }
-        if let Some(row) = e.codes.iter().position(|&c| c as usize >= e.count) {
-            return Err(AbsorbError::Shape(format!(
-                "effect `{}` has code {} at row {row} but declares {} levels",
-                e.name, e.codes[row], e.count
-            )));
-        }
+        check_codes(e, n, "effect", "levels").map_err(AbsorbError::Shape)?;
     }
     let mut keep = match weights {
         Some(w) => weights::check_weights(w, n)?,
