@@ -669,4 +669,35 @@ fn tracked_column_absorbed_by_the_effects_is_refused() {
         )
         .unwrap_err();
     assert!(matches!(err, ModelError::TrackedDropped { .. }));
+    // A model of nothing but the vanished intercept: an answer or a typed error, never a panic.
+    let only = SharedFactor::absorbed(&prepared).unwrap().fit(
+        &ModelSpec {
+            columns: vec![0],
+            outcome: 0,
+            tracked: vec![],
+        },
+        &options(&[Covariance::Classical, Covariance::Hc1]),
+    );
+    if let Ok(fit) = only {
+        assert!(fit.coefficients.is_empty() && fit.dropped == vec![0]);
+    }
+}
+
+/// Nonsense convergence settings are refused before any work.
+#[test]
+fn invalid_absorb_options_are_refused() {
+    let p = panel(7009, 8, 5, false);
+    for (tolerance, max_sweeps) in [(f64::NAN, 10), (0.0, 10), (1.0, 10), (1e-12, 0)] {
+        let err = absorb(
+            &p.absorbed_input(),
+            &p.effects(true),
+            None,
+            &AbsorbOptions {
+                tolerance,
+                max_sweeps,
+            },
+        )
+        .unwrap_err();
+        assert!(matches!(err, AbsorbError::InvalidOptions(_)), "{err}");
+    }
 }

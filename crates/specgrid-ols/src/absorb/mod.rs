@@ -144,6 +144,9 @@ pub enum AbsorbError {
     /// The design itself is malformed.
     #[error(transparent)]
     Engine(#[from] EngineError),
+    /// The convergence settings make no sense.
+    #[error("invalid absorption settings: {0}")]
+    InvalidOptions(String),
     /// Shapes disagree (effect codes or weights against rows).
     #[error("absorption inputs disagree: {0}")]
     Shape(String),
@@ -205,6 +208,12 @@ pub fn absorb(
     opts: &AbsorbOptions,
 ) -> Result<AbsorbedDesign, AbsorbError> {
     check_design(design)?;
+    if !(opts.tolerance > 0.0 && opts.tolerance < 1.0) || opts.max_sweeps == 0 {
+        return Err(AbsorbError::InvalidOptions(format!(
+            "tolerance must lie strictly between 0 and 1 and the sweep limit be at least 1 (got {} and {})",
+            opts.tolerance, opts.max_sweeps
+        )));
+    }
     let n = design.x.nrows();
     for e in effects {
         check_codes(e, n, "effect", "levels").map_err(AbsorbError::Shape)?;
