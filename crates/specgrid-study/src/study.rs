@@ -3,7 +3,7 @@
 
 use std::path::PathBuf;
 
-use crate::plan::{ErrorChoice, OutcomeForm, RowPolicy, Sample, Term};
+use crate::plan::{ErrorChoice, OutcomeForm, ReportSettings, RowPolicy, Sample, Term};
 use crate::problem::Source;
 
 /// A validated study file.
@@ -37,6 +37,8 @@ pub struct Study {
     pub significance_level: f64,
     /// How the grid is built.
     pub grid: GridSettings,
+    /// What the report shows (effect scale, evaluation values, baseline).
+    pub report: ReportSettings,
     /// The file text, to place problems found while planning.
     pub(crate) source: Source,
     /// Byte offsets of a few places that planning problems point at.

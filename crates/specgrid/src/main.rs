@@ -2,6 +2,7 @@
 
 mod cli;
 mod commands;
+mod effects;
 mod exit;
 mod output;
 mod results;

@@ -7,7 +7,7 @@ use toml::de::DeTable;
 
 use super::forms::{read_form, read_terms, Form, FormKind};
 use super::values::{Reader, Val};
-use super::{samples, settings};
+use super::{report, samples, settings};
 use crate::plan::{OutcomeForm, RowPolicy, Term, Transform};
 use crate::problem::suggestion;
 use crate::study::{
@@ -35,6 +35,7 @@ pub(crate) fn read_study(r: &mut Reader<'_>, doc: &DeTable<'_>) -> Option<Study>
     let samples = samples::read_samples(r, doc.get("samples"));
     let errors = settings::read_errors(r, doc.get("errors"));
     let grid = settings::read_grid(r, doc.get("grid"));
+    let report = report::read_report(r, doc.get("report"));
 
     let header = settings?;
     let (grid, skips, spots) = grid?;
@@ -54,6 +55,7 @@ pub(crate) fn read_study(r: &mut Reader<'_>, doc: &DeTable<'_>) -> Option<Study>
         confidence_level,
         significance_level,
         grid,
+        report: Default::default(),
         source: r.source().clone(),
         spots: Spots { ..spots },
     };
@@ -69,6 +71,7 @@ pub(crate) fn read_study(r: &mut Reader<'_>, doc: &DeTable<'_>) -> Option<Study>
         return None;
     }
     study.grid.skip = settings::check_skips(r, &study, skips)?;
+    study.report = report::check_report(r, &study, report?)?;
     Some(study)
 }
 
