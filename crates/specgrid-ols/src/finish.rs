@@ -92,7 +92,7 @@ pub(crate) fn finish(
         if matches!(cov, Covariance::Hc2 | Covariance::Hc3) {
             if rows.is_some_and(|r| r.fe_leverage.is_none()) {
                 return Err(ModelError::InvalidRequest(
-                    "HC2/HC3 errors are not available with two or more absorbed effect sets (the leverage of the absorbed part has no exact cheap form); use HC1 or a cluster-robust choice".into(),
+                    "HC2/HC3 errors need the leverage of the absorbed effects, which is built for one effect, or two whose smaller one has at most 2,000 levels; use HC1 or a cluster-robust choice".into(),
                 ));
             }
             if let Some(row) = meats.unit_leverage_row {

@@ -389,6 +389,8 @@ fn two_way_unbalanced_disconnected_matches_explicit_indicators() {
         },
         Covariance::Cluster { dim: 2 },
         Covariance::Cluster { dim: 4 },
+        Covariance::Hc2,
+        Covariance::Hc3,
     ];
     let fit_a = slopes_fit(&prepared, &covs).unwrap();
     let explicit = p.explicit(&prepared.info.rows_kept, true);
@@ -401,9 +403,42 @@ fn two_way_unbalanced_disconnected_matches_explicit_indicators() {
     ratio[3] = cr1_tail(n, 12) / cr1_tail(n, 32);
     ratio[5] = cr1_tail(n, 20) / cr1_tail(n, 32);
     assert_fwl(&fit_a, &fit_e, &covs, &ratio, Some((6, [4, 7, 8])));
-    // HC2/HC3 with two absorbed sets are refused with a reason, not given a wrong number.
+    // With a third absorbed set the absorbed leverage is not built: HC2/HC3 are refused with a
+    // reason, not given a wrong number.
+    let mut three = p.effects(true);
+    three.push(ids("g1", &p.g1, 9));
+    let prepared = absorb(&p.absorbed_input(), &three, None, &AbsorbOptions::default()).unwrap();
     let err = slopes_fit(&prepared, &[Covariance::Hc2]).unwrap_err();
     assert!(matches!(err, ModelError::InvalidRequest(ref m) if m.contains("HC2/HC3")));
+}
+
+/// Two-way with analytic weights: the absorbed leverage (for HC2/HC3) is the weighted one.
+#[test]
+fn two_way_weighted_leverage_matches_explicit_indicators() {
+    let p = panel(7010, 14, 9, true);
+    let w = RowWeights {
+        name: "plot_area".into(),
+        kind: WeightKind::Analytic,
+        values: p.w_analytic.clone(),
+    };
+    let prepared = absorb(
+        &p.absorbed_input(),
+        &p.effects(true),
+        Some(&w),
+        &AbsorbOptions::default(),
+    )
+    .unwrap();
+    let covs = [Covariance::Hc2, Covariance::Hc3, Covariance::Classical];
+    let fit_a = slopes_fit(&prepared, &covs).unwrap();
+    let rows = &prepared.info.rows_kept;
+    let explicit = p.explicit(rows, true);
+    let we = RowWeights {
+        values: rows.iter().map(|&r| p.w_analytic[r]).collect(),
+        ..w
+    };
+    let weighted = absorb(&explicit, &[], Some(&we), &AbsorbOptions::default()).unwrap();
+    let fit_e = explicit_fit(&SharedFactor::absorbed(&weighted).unwrap(), &covs);
+    assert_fwl(&fit_a, &fit_e, &covs, &[1.0; 3], None);
 }
 
 #[test]

@@ -80,8 +80,7 @@ def fit_model(x, y, clusters, effects, weights, model):
     base = ols.fit()
     if not base.k_constant:
         raise SystemExit(f"{model['label']}: statsmodels did not see the implicit constant")
-    hc = HC_TYPES if len(effects) <= 1 else ["HC0", "HC1"]
-    covs = covariance_blocks(ols, clusters, model, hc, n - k, len(cols))
+    covs = covariance_blocks(ols, clusters, model, HC_TYPES, n - k, len(cols))
     m = len(cols)
     for c in covs:
         for key in ("bse", "tvalues", "pvalues", "ci_low", "ci_high"):

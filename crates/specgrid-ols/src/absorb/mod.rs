@@ -9,6 +9,7 @@
 
 mod components;
 mod demean;
+mod leverage;
 mod singletons;
 mod weights;
 
@@ -86,8 +87,8 @@ pub(crate) struct RowAdjust {
     pub n_df: usize,
     /// 1/f per row under frequency weights.
     pub inv_freq: Option<Vec<f64>>,
-    /// Leverage of the absorbed part per row, scaled rows (one set: ωᵢ/Σ_level ω); `None` when
-    /// several sets are absorbed (no exact cheap form).
+    /// Leverage of the absorbed part per row, scaled rows (see `leverage.rs`); `None` with three
+    /// or more sets, or two whose smaller one has more than 2,000 levels.
     pub fe_leverage: Option<Vec<f64>>,
     /// Whether effects were absorbed (overall and within R²).
     pub has_effects: bool,
@@ -343,12 +344,12 @@ pub fn absorb(
     };
     let fe_leverage = match sets.as_slice() {
         [] => Some(vec![0.0; nk]),
-        [one] => Some(
-            one.codes
-                .iter()
-                .zip(&omega)
-                .map(|(&g, &w)| w / one.level_weight[g as usize])
-                .collect(),
+        [one] => Some(leverage::one_way(one.codes, &one.level_weight, &omega)),
+        [first, second] => leverage::two_way(
+            (first.codes, &first.level_weight),
+            (second.codes, &second.level_weight),
+            &omega,
+            components.expect("two sets have a component count"),
         ),
         _ => None,
     };
