@@ -90,7 +90,7 @@ pub(crate) fn finish(
         .collect();
     for (ci, (cov, groups)) in opts.covariances.iter().zip(&plan.cov_groups).enumerate() {
         if matches!(cov, Covariance::Hc2 | Covariance::Hc3) {
-            if rows.is_some_and(|r| r.fe_leverage.is_none()) {
+            if rows.is_some_and(|r| r.fe_leverage().is_none()) {
                 return Err(ModelError::InvalidRequest(
                     "HC2/HC3 errors need the leverage of the absorbed effects, which is built for one effect, or two whose smaller one has at most 2,000 levels; use HC1 or a cluster-robust choice".into(),
                 ));

@@ -30,7 +30,11 @@ pub(crate) fn row_pass(
     plan: &Plan,
     rows: Option<&RowAdjust>,
 ) -> Vec<Meats> {
-    let fe_lev = rows.and_then(|r| r.fe_leverage.as_deref());
+    let fe_lev = if plan.need_leverage() {
+        rows.and_then(|r| r.fe_leverage())
+    } else {
+        None
+    };
     let inv_freq = rows.and_then(|r| r.inv_freq.as_deref());
     let (n, p) = (x.nrows(), x.ncols());
     let nb_models = cores.len();

@@ -412,59 +412,39 @@ fn two_way_unbalanced_disconnected_matches_explicit_indicators() {
     assert!(matches!(err, ModelError::InvalidRequest(ref m) if m.contains("HC2/HC3")));
 }
 
-/// Two-way with analytic weights: the absorbed leverage (for HC2/HC3) is the weighted one.
-#[test]
-fn two_way_weighted_leverage_matches_explicit_indicators() {
-    let p = panel(7010, 14, 9, true);
+/// The slopes with analytic weights two ways: effects absorbed, and explicit indicators
+/// (weights only) over the same kept rows.
+fn weighted_pair(p: &Panel, two_way: bool, covs: &[Covariance]) -> (ModelFit, ModelFit) {
     let w = RowWeights {
         name: "plot_area".into(),
         kind: WeightKind::Analytic,
         values: p.w_analytic.clone(),
     };
-    let prepared = absorb(
-        &p.absorbed_input(),
-        &p.effects(true),
-        Some(&w),
-        &AbsorbOptions::default(),
-    )
-    .unwrap();
-    let covs = [Covariance::Hc2, Covariance::Hc3, Covariance::Classical];
-    let fit_a = slopes_fit(&prepared, &covs).unwrap();
+    let opts = AbsorbOptions::default();
+    let prepared = absorb(&p.absorbed_input(), &p.effects(two_way), Some(&w), &opts).unwrap();
+    let fit_a = slopes_fit(&prepared, covs).unwrap();
     let rows = &prepared.info.rows_kept;
-    let explicit = p.explicit(rows, true);
+    let explicit = p.explicit(rows, two_way);
     let we = RowWeights {
         values: rows.iter().map(|&r| p.w_analytic[r]).collect(),
         ..w
     };
-    let weighted = absorb(&explicit, &[], Some(&we), &AbsorbOptions::default()).unwrap();
-    let fit_e = explicit_fit(&SharedFactor::absorbed(&weighted).unwrap(), &covs);
+    let weighted = absorb(&explicit, &[], Some(&we), &opts).unwrap();
+    let fit_e = explicit_fit(&SharedFactor::absorbed(&weighted).unwrap(), covs);
+    (fit_a, fit_e)
+}
+
+/// Two-way with analytic weights: the absorbed leverage (for HC2/HC3) is the weighted one.
+#[test]
+fn two_way_weighted_leverage_matches_explicit_indicators() {
+    let covs = [Covariance::Hc2, Covariance::Hc3, Covariance::Classical];
+    let (fit_a, fit_e) = weighted_pair(&panel(7010, 14, 9, true), true, &covs);
     assert_fwl(&fit_a, &fit_e, &covs, &[1.0; 3], None);
 }
 
 #[test]
 fn analytic_weights_with_effects_match_weighted_explicit_indicators() {
-    let p = panel(7003, 18, 8, false);
-    let w = RowWeights {
-        name: "plot_area".into(),
-        kind: WeightKind::Analytic,
-        values: p.w_analytic.clone(),
-    };
-    let prepared = absorb(
-        &p.absorbed_input(),
-        &p.effects(false),
-        Some(&w),
-        &AbsorbOptions::default(),
-    )
-    .unwrap();
-    let fit_a = slopes_fit(&prepared, &ALL_ONE_WAY).unwrap();
-    let rows = &prepared.info.rows_kept;
-    let explicit = p.explicit(rows, false);
-    let we = RowWeights {
-        values: rows.iter().map(|&r| p.w_analytic[r]).collect(),
-        ..w
-    };
-    let weighted = absorb(&explicit, &[], Some(&we), &AbsorbOptions::default()).unwrap();
-    let fit_e = explicit_fit(&SharedFactor::absorbed(&weighted).unwrap(), &ALL_ONE_WAY);
+    let (fit_a, fit_e) = weighted_pair(&panel(7003, 18, 8, false), false, &ALL_ONE_WAY);
     let n = fit_e.n_obs;
     let mut ratio = vec![1.0; ALL_ONE_WAY.len()];
     ratio[5] = cr1_tail(n, 2) / cr1_tail(n, 20);

@@ -13,6 +13,8 @@ mod leverage;
 mod singletons;
 mod weights;
 
+use std::sync::OnceLock;
+
 use faer::Mat;
 use rayon::prelude::*;
 
@@ -87,9 +89,13 @@ pub(crate) struct RowAdjust {
     pub n_df: usize,
     /// 1/f per row under frequency weights.
     pub inv_freq: Option<Vec<f64>>,
-    /// Leverage of the absorbed part per row, scaled rows (see `leverage.rs`); `None` with three
-    /// or more sets, or two whose smaller one has more than 2,000 levels.
-    pub fe_leverage: Option<Vec<f64>>,
+    /// Leverage of the absorbed part per row, built on first use (HC2/HC3 only); see
+    /// [`RowAdjust::fe_leverage`].
+    fe_leverage: OnceLock<Option<Vec<f64>>>,
+    /// ωᵢ per kept row.
+    omega: Vec<f64>,
+    /// Components of the level graph of the first two sets.
+    components: Option<usize>,
     /// Whether effects were absorbed (overall and within R²).
     pub has_effects: bool,
     /// Effect codes and levels after the drops (nesting checks against clusterings).
@@ -115,6 +121,39 @@ impl RowAdjust {
             .sum();
         self.absorbed.saturating_sub(nested)
     }
+
+    /// Leverage of the absorbed part per row, scaled rows (see `leverage.rs`), computed once on
+    /// first use; `None` with three or more sets, or two whose smaller one has more than 2,000
+    /// levels.
+    pub fn fe_leverage(&self) -> Option<&[f64]> {
+        self.fe_leverage
+            .get_or_init(|| {
+                let weights: Vec<Vec<f64>> = self
+                    .effects
+                    .iter()
+                    .map(|(c, l)| level_weights(c, *l, &self.omega))
+                    .collect();
+                match (self.effects.as_slice(), weights.as_slice()) {
+                    ([], _) => Some(vec![0.0; self.omega.len()]),
+                    ([(c, _)], [w]) => Some(leverage::one_way(c, w, &self.omega)),
+                    ([(c1, _), (c2, _)], [w1, w2]) => {
+                        leverage::two_way((c1, w1), (c2, w2), &self.omega, self.components?)
+                    }
+                    _ => None,
+                }
+            })
+            .as_deref()
+    }
+}
+
+/// Σ ωᵢ over the rows of each level.
+fn level_weights(codes: &[u32], levels: usize, omega: &[f64]) -> Vec<f64> {
+    let mut out = vec![0.0; levels];
+    codes
+        .iter()
+        .zip(omega)
+        .for_each(|(&g, &w)| out[g as usize] += w);
+    out
 }
 
 /// Whether every level of the effect lies inside one cluster.
@@ -247,15 +286,9 @@ pub fn absorb(
         .collect();
     let sets: Vec<Effect<'_>> = codes
         .iter()
-        .map(|(c, l)| {
-            let mut level_weight = vec![0.0; *l];
-            c.iter()
-                .zip(&omega)
-                .for_each(|(&g, &w)| level_weight[g as usize] += w);
-            Effect {
-                codes: c,
-                level_weight,
-            }
+        .map(|(c, l)| Effect {
+            codes: c,
+            level_weight: level_weights(c, *l, &omega),
         })
         .collect();
     let refs: Vec<(&[u32], usize)> = codes.iter().map(|(c, l)| (&c[..], *l)).collect();
@@ -342,17 +375,6 @@ pub fn absorb(
     } else {
         nk
     };
-    let fe_leverage = match sets.as_slice() {
-        [] => Some(vec![0.0; nk]),
-        [one] => Some(leverage::one_way(one.codes, &one.level_weight, &omega)),
-        [first, second] => leverage::two_way(
-            (first.codes, &first.level_weight),
-            (second.codes, &second.level_weight),
-            &omega,
-            components.expect("two sets have a component count"),
-        ),
-        _ => None,
-    };
     let info = AbsorbInfo {
         effects: effects.iter().map(|e| e.name.clone()).collect(),
         levels: codes.iter().map(|(_, l)| *l).collect(),
@@ -372,12 +394,14 @@ pub fn absorb(
         absorbed: absorbed_params,
         n_df: observations,
         inv_freq: frequency.then(|| omega.iter().map(|f| 1.0 / f).collect()),
-        fe_leverage,
+        fe_leverage: OnceLock::new(),
         has_effects: !effects.is_empty(),
         effects: codes,
         x_constant,
         x_root_sum,
         root_norm2: omega.iter().sum(),
+        omega,
+        components,
     };
     let design = Design {
         x,
