@@ -138,11 +138,11 @@ pub struct BreuschPagan {
 /// The result of one model.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ModelFit {
-    /// Rows used.
+    /// Rows used (under frequency weights: the observations they stand for, Σ w).
     pub n_obs: usize,
     /// Coefficients estimated (after dropping collinear columns).
     pub n_params: usize,
-    /// n − k.
+    /// n − k (− absorbed parameters).
     pub df_resid: usize,
     /// sqrt(RSS / (n − k)).
     pub resid_sd: f64,
@@ -150,6 +150,11 @@ pub struct ModelFit {
     pub r_squared: f64,
     /// Adjusted R².
     pub adj_r_squared: f64,
+    /// Within R² (the demeaned regression's), when fixed effects were absorbed; `r_squared` is
+    /// then the overall R².
+    pub within_r_squared: Option<f64>,
+    /// Absorbed fixed-effect parameters counted in `df_resid` (0 when none).
+    pub absorbed_params: usize,
     /// Estimated 2-norm condition number of the model's column-scaled design.
     pub condition_number: f64,
     /// Union columns dropped as exactly collinear, in union order.

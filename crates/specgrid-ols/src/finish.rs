@@ -5,6 +5,7 @@
 use faer::{Mat, Side};
 use statrs::distribution::{ChiSquared, ContinuousCDF};
 
+use crate::absorb::RowAdjust;
 use crate::api::{
     BreuschPagan, Coefficient, Covariance, FitOptions, Inference, ModelError, ModelFit,
 };
@@ -50,18 +51,33 @@ pub(crate) struct Meats {
 /// by its own indicator).
 pub(crate) const UNIT_LEVERAGE_GAP: f64 = 1e-10;
 
-/// Assembles the model's result.
+/// Assembles the model's result. With `rows` (an absorbed or weighted design), n is the
+/// observations represented and the absorbed parameters count in k, except in the
+/// cluster-robust factor of a clustering that nests them (`plan.absorbed_in_k`).
 pub(crate) fn finish(
     core: &CoreFit,
     meats: &Meats,
     plan: &Plan,
     opts: &FitOptions,
     tq: &mut TQuantiles,
+    rows: Option<&RowAdjust>,
 ) -> Result<ModelFit, ModelError> {
-    let (n, k) = (core.n, core.k());
-    let df_resid = n - k;
+    let k = core.k();
+    let absorbed = rows.map_or(0, |r| r.absorbed);
+    let n = rows.map_or(core.n, |r| r.n_df);
+    if n <= k + absorbed {
+        return Err(ModelError::NoResidualDf { n, k: k + absorbed });
+    }
+    let df_resid = n - k - absorbed;
     let nf = n as f64;
-    let resid_factor = (nf - 1.0) / df_resid as f64;
+    // (n − 1)/(n − k) of the cluster-robust factor, k counting the absorbed parameters that the
+    // grouping does not nest.
+    let resid_factor = |g: usize| {
+        let a = plan.absorbed_in_k.get(g).copied().unwrap_or(0);
+        (nf - 1.0) / (nf - (k + a) as f64)
+    };
+    // σ² = RSS/df_resid; the core's own σ² divides by rows − k.
+    let classical_factor = (core.n - k) as f64 / df_resid as f64;
     let mut two_way: Vec<Option<Mat<f64>>> = vec![None; opts.covariances.len()];
     let mut coefficients: Vec<Coefficient> = core
         .reported
@@ -74,6 +90,11 @@ pub(crate) fn finish(
         .collect();
     for (ci, (cov, groups)) in opts.covariances.iter().zip(&plan.cov_groups).enumerate() {
         if matches!(cov, Covariance::Hc2 | Covariance::Hc3) {
+            if rows.is_some_and(|r| r.fe_leverage().is_none()) {
+                return Err(ModelError::InvalidRequest(
+                    "HC2/HC3 errors need the leverage of the absorbed effects, which is built for one effect, or two whose smaller one has at most 2,000 levels; use HC1 or a cluster-robust choice".into(),
+                ));
+            }
             if let Some(row) = meats.unit_leverage_row {
                 return Err(ModelError::InvalidRequest(format!(
                     "HC2/HC3 errors are undefined for this model: row {row} has leverage 1 (it is fitted exactly, e.g. by its own indicator); use HC1 or a cluster-robust choice"
@@ -85,7 +106,7 @@ pub(crate) fn finish(
             let mut v = Mat::<f64>::zeros(nw, nw);
             for (g, sign) in [(a, 1.0), (b, 1.0), (ab, -1.0)] {
                 let occ = check_clusters(plan, g)?;
-                let f = sign * occ / (occ - 1.0) * resid_factor;
+                let f = sign * occ / (occ - 1.0) * resid_factor(g);
                 let outer = &meats.group_outer[g];
                 for j in 0..nw {
                     for i in 0..nw {
@@ -115,7 +136,7 @@ pub(crate) fn finish(
                 let (qa, qb) = (core.reported[a], core.reported[b]);
                 let ab = a * nt + b;
                 let v = match (*cov, *groups) {
-                    (Covariance::Classical, _) => core.classical_cov(qa, qb),
+                    (Covariance::Classical, _) => core.classical_cov(qa, qb) * classical_factor,
                     (Covariance::Hc0, _) => meats.hc0[ab],
                     (Covariance::Hc1, _) => meats.hc0[ab] * nf / hc_df,
                     (Covariance::Hc2, _) => meats.hc2[ab],
@@ -124,7 +145,7 @@ pub(crate) fn finish(
                         let occ = check_clusters(plan, g)?;
                         df = occ - 1.0;
                         let meat = meats.group_outer[g][w(a) + w(b) * nw];
-                        occ / (occ - 1.0) * resid_factor * meat
+                        occ / (occ - 1.0) * resid_factor(g) * meat
                     }
                     (Covariance::TwoWayCluster { .. }, CovGroups::Two(ga, gb, _)) => {
                         let v = two_way[ci].as_ref().expect("built above");
@@ -145,14 +166,17 @@ pub(crate) fn finish(
         }
         tracked_covariance.push(m);
     }
-    let (r_squared, adj_r_squared) = r_squared(core);
+    let has_effects = rows.is_some_and(|r| r.has_effects);
+    let (r_squared, adj_r_squared) = r_squared(core, n, absorbed, has_effects);
     Ok(ModelFit {
         n_obs: n,
         n_params: k,
         df_resid,
-        resid_sd: core.sigma2().sqrt(),
+        resid_sd: (core.rss / df_resid as f64).sqrt(),
         r_squared,
         adj_r_squared,
+        within_r_squared: has_effects.then(|| within_r_squared(core)),
+        absorbed_params: absorbed,
         condition_number: core.condition,
         dropped: core.dropped.clone(),
         all_estimates: core
@@ -163,7 +187,12 @@ pub(crate) fn finish(
             .collect(),
         coefficients,
         tracked_covariance,
-        breusch_pagan: meats.bp.as_ref().and_then(|bp| breusch_pagan(core, bp)),
+        // Not defined here for absorbed or weighted designs (see docs/methods.md).
+        breusch_pagan: if rows.is_some() {
+            None
+        } else {
+            meats.bp.as_ref().and_then(|bp| breusch_pagan(core, bp))
+        },
     })
 }
 
@@ -222,9 +251,12 @@ fn repair_psd(v: Mat<f64>) -> Result<Mat<f64>, ModelError> {
     Ok(out)
 }
 
-fn r_squared(core: &CoreFit) -> (f64, f64) {
+/// R² and adjusted R² over `n` observations with `absorbed` extra parameters. With absorbed
+/// effects the R² is overall: 1 − RSS/TSS of the raw outcome (centred, ω-weighted; the
+/// effects span the constant).
+fn r_squared(core: &CoreFit, n: usize, absorbed: usize, has_effects: bool) -> (f64, f64) {
     let tss = core.tss;
-    let (total, c) = if core.has_constant {
+    let (total, c) = if core.has_constant || has_effects {
         (tss.centred, 1.0)
     } else {
         (tss.uncentred, 0.0)
@@ -234,8 +266,17 @@ fn r_squared(core: &CoreFit) -> (f64, f64) {
     } else {
         f64::NAN
     };
-    let (n, k) = (core.n as f64, core.k() as f64);
+    let (n, k) = (n as f64, (core.k() + absorbed) as f64);
     (r2, 1.0 - (1.0 - r2) * (n - c) / (n - k))
+}
+
+/// Within R²: 1 − RSS/Σỹ², the demeaned (and √ω-scaled) outcome's own sum of squares.
+fn within_r_squared(core: &CoreFit) -> f64 {
+    if core.tss.uncentred > 0.0 {
+        1.0 - core.rss / core.tss.uncentred
+    } else {
+        f64::NAN
+    }
 }
 
 /// Koenker (1981) studentized Breusch–Pagan: LM = n·R² of u = e² on the model's columns,

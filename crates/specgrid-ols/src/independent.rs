@@ -36,6 +36,7 @@ pub fn fit_independent(
         &plan,
         opts,
         &mut TQuantiles::new(opts.confidence_level),
+        None,
     )
 }
 
@@ -109,6 +110,7 @@ fn independent_core(
             col_constant: &col_constant,
             tss: ModelTss::of(y),
             col_sums: &col_sums,
+            ones_norm2: n as f64,
         };
         let mut core = core_from_factor(n, model, &parts, &design.x_names, opts)?;
         if needs_refinement(&core) {

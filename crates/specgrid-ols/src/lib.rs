@@ -1,6 +1,7 @@
 //! Shared-factorisation OLS engine: many related least-squares models on one union design,
 //! from one Householder QR. See docs/methods.md for the algebra and its sources.
 #![warn(missing_docs)]
+pub mod absorb;
 pub mod api;
 mod dense;
 mod finish;
@@ -15,6 +16,9 @@ mod small_qr;
 mod student;
 mod validate;
 
+pub use absorb::{
+    absorb, AbsorbError, AbsorbInfo, AbsorbOptions, AbsorbedDesign, RowWeights, WeightKind,
+};
 pub use api::*;
 pub use independent::fit_independent;
 pub use shared::SharedFactor;

@@ -124,8 +124,11 @@ pub(crate) struct FactorParts<'a> {
     pub col_constant: &'a [bool],
     /// Total sums of squares of the outcome.
     pub tss: ModelTss,
-    /// Sum of each model column (model order).
+    /// Sum of each model column (model order): X'u for the constant vector u (ones, or √ω
+    /// for a weighted design).
     pub col_sums: &'a [f64],
+    /// ‖u‖²: n, or Σω for a weighted design.
+    pub ones_norm2: f64,
 }
 
 /// Relative squared distance of the ones vector from the column space below which the model
@@ -146,9 +149,10 @@ pub(crate) fn projected_sq_norm(rinv: &[f64], scales: &[f64], xtv: &[f64]) -> f6
         .sum()
 }
 
-/// Whether 1 lies in the span of the kept columns: ‖Q_S'1‖² equals n then.
-fn spans_ones(n: usize, rinv: &[f64], scales: &[f64], sums: &[f64]) -> bool {
-    projected_sq_norm(rinv, scales, sums) >= n as f64 * (1.0 - SPAN_TOL)
+/// Whether the constant vector u lies in the span of the kept columns: ‖Q_S'u‖² equals ‖u‖²
+/// then (`norm2`).
+fn spans_ones(norm2: f64, rinv: &[f64], scales: &[f64], sums: &[f64]) -> bool {
+    projected_sq_norm(rinv, scales, sums) >= norm2 * (1.0 - SPAN_TOL)
 }
 
 /// Builds a [`CoreFit`] from a factor, refusing models that cannot be given trustworthy numbers.
@@ -203,7 +207,8 @@ pub(crate) fn core_from_factor(
         .map(|&q| parts.col_constant[q])
         .collect();
     let sums: Vec<f64> = parts.kept_pos.iter().map(|&q| parts.col_sums[q]).collect();
-    let has_constant = constant.iter().any(|&c| c) || spans_ones(n, &rinv, &scales, &sums);
+    let has_constant =
+        constant.iter().any(|&c| c) || spans_ones(parts.ones_norm2, &rinv, &scales, &sums);
     let reported = if model.tracked.is_empty() {
         (0..k).collect()
     } else {

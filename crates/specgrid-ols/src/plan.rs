@@ -46,6 +46,9 @@ pub(crate) struct Plan {
     pub groupings: Vec<Grouping>,
     /// Per covariance choice (options order).
     pub cov_groups: Vec<CovGroups>,
+    /// Per grouping: absorbed parameters counted in k of its cluster-robust factor (empty when
+    /// nothing is absorbed).
+    pub absorbed_in_k: Vec<usize>,
 }
 
 impl Plan {
@@ -59,6 +62,7 @@ impl Plan {
             all_coefs: false,
             groupings: Vec::new(),
             cov_groups: Vec::new(),
+            absorbed_in_k: Vec::new(),
         };
         let mut keys: Vec<(usize, Option<usize>)> = Vec::new();
         let mut group_of = |a: usize, b: Option<usize>, plan: &mut Plan| -> usize {

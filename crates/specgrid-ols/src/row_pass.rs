@@ -10,6 +10,7 @@ use faer::linalg::matmul::matmul;
 use faer::reborrow::{Reborrow, ReborrowMut};
 use faer::{Accum, Mat, MatRef, Par};
 
+use crate::absorb::RowAdjust;
 use crate::finish::{BpSums, Meats, UNIT_LEVERAGE_GAP};
 use crate::model_core::CoreFit;
 use crate::plan::Plan;
@@ -18,14 +19,23 @@ use crate::plan::Plan;
 const ROW_BLOCK: usize = 512;
 
 /// Runs the pass for `cores` (all on the same design) and returns one [`Meats`] per core.
-/// `x_colsum` are the union column sums (for the Breusch–Pagan centring).
+/// `x_colsum` are the union column sums (for the Breusch–Pagan centring). With `rows` (an
+/// absorbed or weighted design) each row's leverage gains the absorbed part and, under
+/// frequency weights, leverage and HC terms are per represented observation (divided by f).
 pub(crate) fn row_pass(
     x: MatRef<'_, f64>,
     y: MatRef<'_, f64>,
     x_colsum: &[f64],
     cores: &[&CoreFit],
     plan: &Plan,
+    rows: Option<&RowAdjust>,
 ) -> Vec<Meats> {
+    let fe_lev = if plan.need_leverage() {
+        rows.and_then(|r| r.fe_leverage())
+    } else {
+        None
+    };
+    let inv_freq = rows.and_then(|r| r.inv_freq.as_deref());
     let (n, p) = (x.nrows(), x.ncols());
     let nb_models = cores.len();
     let mut meats: Vec<Meats> = cores.iter().map(|c| empty_meats(c, plan)).collect();
@@ -185,6 +195,12 @@ pub(crate) fn row_pass(
                         *hi = (0..core.k())
                             .map(|c| lev[(i, lev_start[t] + c)].powi(2))
                             .sum();
+                        if let Some(fl) = fe_lev {
+                            *hi += fl[r0 + i];
+                        }
+                        if let Some(f) = inv_freq {
+                            *hi *= f[r0 + i];
+                        }
                         if 1.0 - *hi <= UNIT_LEVERAGE_GAP && meats[t].unit_leverage_row.is_none() {
                             meats[t].unit_leverage_row = Some(r0 + i);
                         }
@@ -195,6 +211,7 @@ pub(crate) fn row_pass(
                         w.as_ref().subrows(0, nr),
                         e.col(t).subrows(0, nr),
                         if nl > 0 { Some(&h[..nr]) } else { None },
+                        inv_freq.map(|f| &f[r0..r0 + nr]),
                         &rep_w[t],
                         &mut hc_acc[hc_start[t]..],
                     );
@@ -254,11 +271,13 @@ pub(crate) fn row_pass(
 
 /// Adds one block's HC sums for one model: for every pair a ≤ b of its reported w columns,
 /// Σᵢ (wₐᵢeᵢ)(w_bᵢeᵢ) and the same over (1 − hᵢ) and (1 − hᵢ)² (`lev` present only when HC2/HC3
-/// are requested). `acc` starts at the model's t × t block (upper triangle used). Cost O(rows·t²).
+/// are requested); each term times `inv_freq` (frequency weights: f copies of (w e/f)²).
+/// `acc` starts at the model's t × t block (upper triangle used). Cost O(rows·t²).
 fn hc_pairs(
     w: MatRef<'_, f64>,
     e: faer::ColRef<'_, f64>,
     lev: Option<&[f64]>,
+    inv_freq: Option<&[f64]>,
     rep_w: &[usize],
     acc: &mut [[f64; 3]],
 ) {
@@ -271,7 +290,10 @@ fn hc_pairs(
             let cell = &mut acc[a * nt + b];
             for i in 0..nr {
                 // Same products as the diagonal's (w·e)², so the diagonal is unchanged.
-                let prod = (wa[i] * e[i]) * (wb[i] * e[i]);
+                let mut prod = (wa[i] * e[i]) * (wb[i] * e[i]);
+                if let Some(f) = inv_freq {
+                    prod *= f[i];
+                }
                 cell[0] += prod;
                 if let Some(h) = lev {
                     let gap = 1.0 - h[i];

@@ -4,6 +4,7 @@
 use faer::Mat;
 use rayon::prelude::*;
 
+use crate::absorb::{AbsorbedDesign, RowAdjust};
 use crate::api::{Design, EngineError, FitOptions, ModelError, ModelFit, ModelSpec};
 use crate::dense::{householder_in_place, is_constant_nonzero, thin_q, unit_scale};
 use crate::finish::finish;
@@ -36,6 +37,10 @@ pub struct SharedFactor<'a> {
     x_colsum: Vec<f64>,
     /// Total sums of squares per outcome.
     tss: Vec<ModelTss>,
+    /// ‖u‖² of the constant vector u (n; Σω for a weighted design).
+    ones_norm2: f64,
+    /// Absorbed effects and weights, when the design came from [`crate::absorb()`].
+    rows: Option<&'a RowAdjust>,
     /// The first min(n, p) columns of Q (an orthonormal basis of the union X columns' span),
     /// kept only by [`SharedFactor::new_for_refits`]; outcome-only refits multiply new outcomes
     /// by it (see `inference::refit`).
@@ -109,8 +114,26 @@ impl<'a> SharedFactor<'a> {
             x_constant,
             x_colsum,
             tss,
+            ones_norm2: n as f64,
+            rows: None,
             x_basis,
         })
+    }
+
+    /// Factors a design prepared by [`crate::absorb()`]: models fitted on it count the absorbed
+    /// parameters in their degrees of freedom, follow the weights' conventions and report
+    /// overall and within R² (see docs/methods.md, "Fixed effects and weights").
+    pub fn absorbed(prepared: &'a AbsorbedDesign) -> Result<SharedFactor<'a>, EngineError> {
+        let mut factor = SharedFactor::new(&prepared.design)?;
+        let rows = &prepared.rows;
+        factor.x_constant.clone_from(&rows.x_constant);
+        factor.x_colsum.clone_from(&rows.x_root_sum);
+        factor.ones_norm2 = rows.root_norm2;
+        for (t, &total) in factor.tss.iter_mut().zip(&prepared.info.total_ss) {
+            t.centred = total;
+        }
+        factor.rows = Some(rows);
+        Ok(factor)
     }
 
     /// Upper-triangular factor of the scaled union [X | Y].
@@ -163,7 +186,14 @@ impl<'a> SharedFactor<'a> {
             on_done(models.len());
             return vec![Err(e); models.len()];
         }
-        let plan = Plan::new(self.design, opts);
+        let mut plan = Plan::new(self.design, opts);
+        if let Some(rows) = self.rows {
+            plan.absorbed_in_k = plan
+                .groupings
+                .iter()
+                .map(|g| rows.absorbed_for_clustering(&g.codes))
+                .collect();
+        }
         let batches = batch_bounds(models, &plan);
         let results: Vec<Vec<Result<ModelFit, ModelError>>> = batches
             .par_iter()
@@ -194,6 +224,7 @@ impl<'a> SharedFactor<'a> {
             &self.x_colsum,
             &ok,
             plan,
+            self.rows,
         );
         let mut tq = TQuantiles::new(opts.confidence_level);
         let mut meats = meats.into_iter();
@@ -202,7 +233,7 @@ impl<'a> SharedFactor<'a> {
             .map(|c| {
                 let core = c?;
                 let meat = meats.next().expect("one meat per core");
-                finish(&core, &meat, plan, opts, &mut tq)
+                finish(&core, &meat, plan, opts, &mut tq, self.rows)
             })
             .collect()
     }
@@ -262,6 +293,7 @@ impl<'a> SharedFactor<'a> {
             col_constant: &w.constant,
             tss: self.tss[model.outcome],
             col_sums: &w.sums,
+            ones_norm2: self.ones_norm2,
         };
         let mut core = core_from_factor(n, model, &parts, &design.x_names, opts)?;
         if needs_refinement(&core) {

@@ -1,6 +1,6 @@
 //! Input checks: every malformed design or request becomes a typed error, never a panic.
 
-use crate::api::{Covariance, Design, EngineError, FitOptions, ModelError, ModelSpec};
+use crate::api::{ClusterIds, Covariance, Design, EngineError, FitOptions, ModelError, ModelSpec};
 
 /// Checks shapes, names, cluster codes and finiteness of a design.
 pub(crate) fn check_design(design: &Design) -> Result<(), EngineError> {
@@ -52,19 +52,31 @@ pub(crate) fn check_design_shape(design: &Design) -> Result<(), EngineError> {
         ));
     }
     for c in &design.clusters {
-        if c.codes.len() != n {
-            return Err(EngineError::Shape(format!(
-                "cluster `{}` has {} codes for {n} rows",
-                c.name,
-                c.codes.len()
-            )));
-        }
-        if let Some(row) = c.codes.iter().position(|&g| g as usize >= c.count) {
-            return Err(EngineError::Shape(format!(
-                "cluster `{}` has code {} at row {row}, but declares only {} clusters",
-                c.name, c.codes[row], c.count
-            )));
-        }
+        check_codes(c, n, "cluster", "clusters").map_err(EngineError::Shape)?;
+    }
+    Ok(())
+}
+
+/// Checks that a code vector (a clustering or an absorbed effect, named `what`; its levels are
+/// called `levels`) has one code per row, each below its declared count.
+pub(crate) fn check_codes(
+    c: &ClusterIds,
+    n: usize,
+    what: &str,
+    levels: &str,
+) -> Result<(), String> {
+    if c.codes.len() != n {
+        return Err(format!(
+            "{what} `{}` has {} codes for {n} rows",
+            c.name,
+            c.codes.len()
+        ));
+    }
+    if let Some(row) = c.codes.iter().position(|&g| g as usize >= c.count) {
+        return Err(format!(
+            "{what} `{}` has code {} at row {row}, but declares only {} {levels}",
+            c.name, c.codes[row], c.count
+        ));
     }
     Ok(())
 }

@@ -15,6 +15,8 @@
 //! - statsmodels gets the redundant-indicator design with the collinear column already removed;
 //!   the engine gets the full design and must drop the same column and report it.
 
+mod support;
+
 use serde::Deserialize;
 use specgrid_ols::{
     fit_independent, ClusterIds, Covariance, Design, FitOptions, ModelError, ModelFit, ModelSpec,
@@ -134,19 +136,7 @@ fn design(f: &Fixture) -> Design {
 
 /// The engine's covariance choice for one fixture entry.
 fn covariance(c: &FixtureCovariance) -> Covariance {
-    match (c.kind.as_str(), c.dims.as_slice()) {
-        ("classical", []) => Covariance::Classical,
-        ("hc0", []) => Covariance::Hc0,
-        ("hc1", []) => Covariance::Hc1,
-        ("hc2", []) => Covariance::Hc2,
-        ("hc3", []) => Covariance::Hc3,
-        ("cluster", [d]) => Covariance::Cluster { dim: *d },
-        ("two_way_cluster", [a, b]) => Covariance::TwoWayCluster {
-            first: *a,
-            second: *b,
-        },
-        (kind, dims) => panic!("fixture covariance {kind} {dims:?} has no engine counterpart"),
-    }
+    support::fixture_covariance(&c.kind, &c.dims)
 }
 
 /// Every covariance choice any model of the fixture was given by statsmodels, in first-seen order.

@@ -18,6 +18,7 @@ live="$(mktemp -d)"
 trap 'rm -rf "$live"' EXIT
 
 "$venv/bin/python" "$here/make_fixtures.py" --out "$live"
+"$venv/bin/python" "$here/make_fixtures_fe.py" --out "$live"
 "$venv/bin/python" "$here/compare.py" "$here/fixtures" "$live" --rtol 1e-10
 
 # The effects fixture: the data set must come out byte for byte, the expected effects to 1e-10.

@@ -50,13 +50,17 @@ def inference_block(res, label, dims, expected_df):
     if df != expected_df:
         raise SystemExit(f"{label}: statsmodels used t df {df}, expected {expected_df}")
     # Recompute the two-sided p-value from t and df to confirm which distribution it used.
+    # NaN entries (an indefinite two-way matrix, seen only in the indicator block of
+    # make_fixtures_fe.py's designs) are compared as NaN on both sides.
     recomputed = 2.0 * stats.t.sf(np.abs(res.tvalues), df)
-    if not np.allclose(recomputed, res.pvalues, rtol=1e-12, atol=0.0):
+    if not np.allclose(recomputed, res.pvalues, rtol=1e-12, atol=0.0, equal_nan=True):
         raise SystemExit(f"{label}: statsmodels p-values are not Student t with df {df}")
-    exog, endog = res.model.exog, res.model.endog
+    # The whitened design: for OLS it is the design itself; for WLS, √w·x and √w·y, on which
+    # statsmodels builds every robust covariance.
+    exog, endog = res.model.wexog, res.model.wendog
     groups = res.cov_kwds.get("groups") if dims else None
     textbook = textbook_se(exog, endog, label, None if groups is None else np.asarray(groups))
-    if not np.allclose(textbook, res.bse, rtol=1e-9, atol=0.0):
+    if not np.allclose(textbook, res.bse, rtol=1e-9, atol=0.0, equal_nan=True):
         raise SystemExit(f"{label}: statsmodels bse {res.bse} differ from the formula {textbook}")
     ci = np.asarray(res.conf_int(alpha=1.0 - CONFIDENCE_LEVEL))
     return {
@@ -240,19 +244,25 @@ def one_way(case, seed, n_clusters, size_low, size_high):
     }
 
 
+def unbalanced_cells(rng, units, periods, keep):
+    """Unit and period labels of an unbalanced panel: each cell kept with probability `keep`,
+    and a kept cell doubled with probability 0.1."""
+    u_lab, p_lab = [], []
+    for u in range(units):
+        for p in range(periods):
+            if rng.uniform() < keep:
+                copies = 2 if rng.uniform() < 0.10 else 1
+                u_lab += [u] * copies
+                p_lab += [p] * copies
+    return np.array(u_lab), np.array(p_lab)
+
+
 def two_way_panel():
     """40 units x 25 periods, about 15% of cells missing and 10% doubled, unit and period shocks."""
     seed = 20261203
     rng = np.random.default_rng(seed)
     units, periods = 40, 25
-    u_lab, p_lab = [], []
-    for u in range(units):
-        for p in range(periods):
-            if rng.uniform() < 0.85:
-                copies = 2 if rng.uniform() < 0.10 else 1
-                u_lab += [u] * copies
-                p_lab += [p] * copies
-    u_lab, p_lab = np.array(u_lab), np.array(p_lab)
+    u_lab, p_lab = unbalanced_cells(rng, units, periods, 0.85)
     n = len(u_lab)
     u_shock = rng.normal(0.0, 1.0, units)
     p_shock = rng.normal(0.0, 0.8, periods)
@@ -391,9 +401,13 @@ def main():
         redundant_indicator(),
         redundant_indicator("indicators_span_constant"),
     ]
-    for case in cases:
-        doc = build(case)
-        path = args.out / f"{doc['case']}.json"
+    write_fixtures(args.out, (build(case) for case in cases))
+
+
+def write_fixtures(out, docs):
+    """Write each fixture document as compact JSON to OUT/<case>.json."""
+    for doc in docs:
+        path = out / f"{doc['case']}.json"
         with open(path, "w") as f:
             json.dump(doc, f, indent=None, separators=(",", ":"))
             f.write("\n")

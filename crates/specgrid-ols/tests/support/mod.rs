@@ -6,7 +6,7 @@ use faer::Mat;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, StandardNormal};
-use specgrid_ols::{ClusterIds, Design, FitOptions, ModelFit, ModelSpec};
+use specgrid_ols::{ClusterIds, Covariance, Design, FitOptions, ModelFit, ModelSpec};
 
 /// A design with an intercept, `cont` continuous regressors, a `levels`-level factor as
 /// `levels` indicator columns (a full set, so with the intercept one is redundant), two outcomes
@@ -229,5 +229,23 @@ pub fn all_covariances() -> FitOptions {
             },
         ],
         ..FitOptions::default()
+    }
+}
+
+/// The engine's covariance choice for a statsmodels fixture entry (`kind`, clustering dims), as
+/// tests/reference/statsmodels/make_fixtures*.py name them.
+pub fn fixture_covariance(kind: &str, dims: &[usize]) -> Covariance {
+    match (kind, dims) {
+        ("classical", []) => Covariance::Classical,
+        ("hc0", []) => Covariance::Hc0,
+        ("hc1", []) => Covariance::Hc1,
+        ("hc2", []) => Covariance::Hc2,
+        ("hc3", []) => Covariance::Hc3,
+        ("cluster", [d]) => Covariance::Cluster { dim: *d },
+        ("two_way_cluster", [a, b]) => Covariance::TwoWayCluster {
+            first: *a,
+            second: *b,
+        },
+        (kind, dims) => panic!("fixture covariance {kind} {dims:?} has no engine counterpart"),
     }
 }
