@@ -40,6 +40,10 @@ pub enum DropReason {
         /// The rule, e.g. `visits ≤ 0`.
         rule: String,
     },
+    /// The row is alone in a level of an absorbed effect (dropped repeatedly until none is).
+    Singleton,
+    /// The row's weight is zero.
+    ZeroWeight,
 }
 
 /// Rows dropped for one reason.
@@ -90,6 +94,11 @@ pub struct SampleDesign {
     pub rows: Vec<usize>,
     /// Row counts and drop reasons.
     pub account: RowAccount,
+    /// The design after absorbing fixed effects and applying weights, when the models of this
+    /// design take any; `design` then holds the same rows untransformed (for means and labels).
+    pub absorbed: Option<specgrid_ols::AbsorbedDesign>,
+    /// Plan terms that absorb effects or give weights (empty for a plain design).
+    pub settings: Vec<usize>,
 }
 
 impl SampleDesign {
@@ -227,6 +236,7 @@ pub fn assemble(plan: &Plan, data: &LoadedData) -> Result<Assembly, DataError> {
 
         let groups: Vec<Group> = match plan.row_policy {
             RowPolicy::SharedRows => vec![Group {
+                settings: Vec::new(),
                 models: models.clone(),
                 terms: (0..plan.terms.len()).collect(),
                 outcomes: (0..plan.outcomes.len()).collect(),
@@ -242,7 +252,7 @@ pub fn assemble(plan: &Plan, data: &LoadedData) -> Result<Assembly, DataError> {
                 &in_sample,
             )?,
         };
-        for group in groups {
+        for group in groups.into_iter().flat_map(|g| split_by_settings(plan, g)) {
             let context = DesignContext {
                 plan,
                 data,
@@ -253,7 +263,11 @@ pub fn assemble(plan: &Plan, data: &LoadedData) -> Result<Assembly, DataError> {
                 levels: &levels,
                 clusters: &clusters,
             };
-            designs.push(context.build(group, &mut warnings)?);
+            let settings = group.settings.clone();
+            let design = context.build(group, &mut warnings)?;
+            designs.push(crate::settings::prepare(
+                plan, data, design, &settings, &levels,
+            )?);
         }
     }
     Ok(Assembly {
@@ -266,11 +280,12 @@ pub fn assemble(plan: &Plan, data: &LoadedData) -> Result<Assembly, DataError> {
 fn categorical_columns(term: &Term, out: &mut Vec<String>) {
     match term {
         Term::Numeric { .. } => {}
-        Term::Categorical { column, .. } => {
+        Term::Categorical { column, .. } | Term::Absorbed { column } => {
             if !out.contains(column) {
                 out.push(column.clone());
             }
         }
+        Term::Weights { .. } => {}
         Term::Product(a, b) => {
             categorical_columns(a, out);
             categorical_columns(b, out);
@@ -308,6 +323,7 @@ fn per_model_groups(
                 let mask = valid.mask(in_sample, atoms.iter().copied());
                 let g = *by_mask.entry(mask.clone()).or_insert_with(|| {
                     groups.push(Group {
+                        settings: Vec::new(),
                         models: Vec::new(),
                         terms: Vec::new(),
                         outcomes: Vec::new(),
@@ -475,7 +491,9 @@ fn sample_warnings(
                     suggestion,
                 }
             }
-            DropReason::SampleConditions => continue,
+            DropReason::SampleConditions | DropReason::Singleton | DropReason::ZeroWeight => {
+                continue
+            }
         };
         if !warnings.contains(&warning) {
             warnings.push(warning);
@@ -486,6 +504,8 @@ fn sample_warnings(
 
 /// Models sharing one row set, with the terms, outcomes and atoms they use.
 struct Group {
+    /// Plan terms that absorb effects or give weights, shared by every model of the group.
+    settings: Vec<usize>,
     models: Vec<usize>,
     terms: Vec<usize>,
     outcomes: Vec<usize>,
@@ -512,6 +532,42 @@ impl Group {
         self.terms.sort_unstable();
         self.outcomes.sort_unstable();
     }
+}
+
+/// Splits a row group by the absorbed effects and weights its models take: each such set gets a
+/// design of its own, demeaned and weighted once for all its models. Groups without settings
+/// pass through unchanged.
+fn split_by_settings(plan: &Plan, group: Group) -> Vec<Group> {
+    let settings_of = |m: usize| -> Vec<usize> {
+        let mut s: Vec<usize> = plan.models[m]
+            .terms
+            .iter()
+            .copied()
+            .filter(|&t| plan.terms[t].is_design_setting())
+            .collect();
+        s.sort_unstable();
+        s
+    };
+    let mut parts: Vec<Group> = Vec::new();
+    for &m in &group.models {
+        let settings = settings_of(m);
+        let g = match parts.iter().position(|p| p.settings == settings) {
+            Some(g) => g,
+            None => {
+                parts.push(Group {
+                    settings,
+                    models: Vec::new(),
+                    terms: Vec::new(),
+                    outcomes: Vec::new(),
+                    atoms: group.atoms.clone(),
+                    mask: group.mask.clone(),
+                });
+                parts.len() - 1
+            }
+        };
+        parts[g].add(&plan.models[m], m, Vec::new());
+    }
+    parts
 }
 
 struct DesignContext<'a> {
@@ -685,6 +741,8 @@ impl DesignContext<'_> {
                 dropped,
             },
             rows,
+            absorbed: None,
+            settings: Vec::new(),
         })
     }
 
@@ -714,7 +772,7 @@ impl DesignContext<'_> {
 }
 
 /// Cluster codes 0..G over the design's rows, numbered in sorted level order.
-fn dense_codes(name: &str, levels: &Levels, rows: &[usize]) -> ClusterIds {
+pub(crate) fn dense_codes(name: &str, levels: &Levels, rows: &[usize]) -> ClusterIds {
     let mut new_code = vec![u32::MAX; levels.labels.len()];
     for &r in rows {
         if let Some(c) = levels.codes[r] {
@@ -748,6 +806,11 @@ fn empty_reason(rows_in_sample: usize, dropped: &[DropCount]) -> String {
                 "{term} undefined in {} with {rule}",
                 fmt_rows(d.rows)
             )),
+            DropReason::Singleton => Some(format!(
+                "{} alone in a level of an absorbed effect",
+                fmt_rows(d.rows)
+            )),
+            DropReason::ZeroWeight => Some(format!("{} with zero weight", fmt_rows(d.rows))),
         })
         .collect();
     parts.truncate(4);

@@ -58,7 +58,14 @@ pub fn term_atoms(term: &Term, out: &mut Vec<Atom>) {
                 transform: validity_class(transform),
             },
         ),
-        Term::Categorical { column, .. } => push_unique(
+        Term::Weights { column, .. } => push_unique(
+            out,
+            Atom::Numeric {
+                column: column.clone(),
+                transform: validity_class(&specgrid_study::Transform::Level),
+            },
+        ),
+        Term::Categorical { column, .. } | Term::Absorbed { column } => push_unique(
             out,
             Atom::Present {
                 column: column.clone(),

@@ -235,6 +235,17 @@ pub enum DataError {
         /// What is inconsistent.
         detail: String,
     },
+    /// Absorbing fixed effects or applying weights failed (bad weights, nothing left, no
+    /// convergence); `detail` says why and what to do.
+    #[error("{}: sample `{sample}`: {detail}", path.display())]
+    Preparation {
+        /// The data file.
+        path: PathBuf,
+        /// Sample option name.
+        sample: String,
+        /// The engine's explanation.
+        detail: String,
+    },
 }
 
 /// Something the user should know that does not stop the run.

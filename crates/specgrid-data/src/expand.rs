@@ -61,6 +61,8 @@ impl Expander<'_> {
                     values,
                 }])
             }
+            // Absorbed effects and weights change how the design is prepared, not its columns.
+            Term::Absorbed { .. } | Term::Weights { .. } => Ok(Vec::new()),
             Term::Categorical { column, reference } => {
                 self.indicators(column, reference.as_deref(), tracked)
             }

@@ -17,6 +17,7 @@ pub mod loaded;
 pub mod needs;
 pub mod read;
 pub mod sample;
+mod settings;
 pub mod transform;
 
 pub use assemble::{

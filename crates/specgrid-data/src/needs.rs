@@ -54,7 +54,8 @@ pub fn column_needs(plan: &Plan) -> Vec<ColumnNeed> {
 fn term_columns(term: &Term, add: &mut impl FnMut(&str, bool)) {
     match term {
         Term::Numeric { column, .. } => add(column, true),
-        Term::Categorical { column, .. } => add(column, false),
+        Term::Categorical { column, .. } | Term::Absorbed { column } => add(column, false),
+        Term::Weights { column, .. } => add(column, true),
         Term::Product(a, b) => {
             term_columns(a, add);
             term_columns(b, add);

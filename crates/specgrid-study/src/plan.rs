@@ -55,6 +55,39 @@ pub enum Term {
     /// The elementwise product of two terms (an interaction). If either side expands to several
     /// columns, the product has one column per pair.
     Product(Box<Term>, Box<Term>),
+    /// Fixed effects of a categorical column, absorbed (the design is demeaned within its
+    /// levels) instead of expanded to indicators: any number of levels, no design columns.
+    Absorbed {
+        /// Source column whose levels are the groups.
+        column: String,
+    },
+    /// Regression weights from a numeric column; no design columns. At most one per model.
+    Weights {
+        /// Source column.
+        column: String,
+        /// How the weights are read.
+        kind: WeightKind,
+    },
+}
+
+/// How a weights column is read.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum WeightKind {
+    /// Inverse-variance weights: weighted least squares, n = rows.
+    Analytic,
+    /// Each row stands for this many identical observations (whole numbers), n = Σ weights.
+    Frequency,
+}
+
+impl WeightKind {
+    /// The study file's word.
+    pub fn word(self) -> &'static str {
+        match self {
+            WeightKind::Analytic => "analytic",
+            WeightKind::Frequency => "frequency",
+        }
+    }
 }
 
 /// One candidate form of the outcome.
@@ -252,8 +285,17 @@ pub struct PlannedModel {
     /// The subset of `terms` whose coefficients the study tracks (the focus form's terms plus any
     /// extra tracked terms present in this model).
     pub tracked: Vec<usize>,
-    /// Whether the model has an intercept.
+    /// Whether the model has an intercept (never when it absorbs fixed effects: the effects
+    /// span it).
     pub intercept: bool,
+}
+
+impl Term {
+    /// Whether the term makes no design columns but changes how the design is prepared
+    /// (absorbed fixed effects or weights).
+    pub fn is_design_setting(&self) -> bool {
+        matches!(self, Term::Absorbed { .. } | Term::Weights { .. })
+    }
 }
 
 /// The common scale on which the report puts every model's tracked effect, so that models
@@ -381,7 +423,10 @@ impl Term {
     /// Source columns the term reads.
     pub fn columns(&self) -> Vec<&str> {
         match self {
-            Term::Numeric { column, .. } | Term::Categorical { column, .. } => {
+            Term::Numeric { column, .. }
+            | Term::Categorical { column, .. }
+            | Term::Absorbed { column }
+            | Term::Weights { column, .. } => {
                 vec![column.as_str()]
             }
             Term::Product(a, b) => {
@@ -410,6 +455,8 @@ impl Term {
                 None => format!("{column}[ref first]"),
             },
             Term::Product(a, b) => format!("{} × {}", a.label(), b.label()),
+            Term::Absorbed { column } => format!("{column} effects (absorbed)"),
+            Term::Weights { column, kind } => format!("{} weights {column}", kind.word()),
         }
     }
 
@@ -429,6 +476,8 @@ impl Term {
                 }
                 format!("prod({x},{y})")
             }
+            Term::Absorbed { column } => format!("absorb({column:?})"),
+            Term::Weights { column, kind } => format!("weights({column:?},{})", kind.word()),
         }
     }
 }

@@ -137,6 +137,7 @@ fn build(
     let mut models = Vec::with_capacity(indices.len());
     let mut seen_ids: HashMap<String, usize> = HashMap::new();
     let mut duplicates = Vec::new();
+    let mut two_weights: Option<usize> = None;
     for index in indices {
         let choices = decode(index, &radices);
         let content = layout.content(&choices);
@@ -166,6 +167,16 @@ fn build(
         } else {
             seen_ids.insert(id.clone(), models.len());
         }
+        let absorbs = model_terms
+            .iter()
+            .any(|&t| matches!(terms[t], Term::Absorbed { .. }));
+        let weight_terms = model_terms
+            .iter()
+            .filter(|&&t| matches!(terms[t], Term::Weights { .. }))
+            .count();
+        if weight_terms > 1 && two_weights.is_none() {
+            two_weights = Some(models.len());
+        }
         models.push(PlannedModel {
             id,
             choices,
@@ -173,7 +184,8 @@ fn build(
             sample: content.sample,
             terms: model_terms,
             tracked,
-            intercept: study.intercept,
+            // Absorbed effects span the constant, so the model has none of its own.
+            intercept: study.intercept && !absorbs,
         });
     }
     let mut plan = Plan {
@@ -202,6 +214,21 @@ fn build(
     };
     if !duplicates.is_empty() {
         return Err(duplicate_problems(study, &plan, &duplicates));
+    }
+    if let Some(m) = two_weights {
+        let choices: Vec<String> = plan
+            .choice_names(&plan.models[m])
+            .iter()
+            .map(|(d, o)| format!("{d}={o}"))
+            .collect();
+        return Err(vec![study.source.problem(
+            study.spots.grid,
+            format!(
+                "the model [{}] would use two weights columns at once",
+                choices.join(", ")
+            ),
+            Some("put every weights option in one control block (one decision), or skip the combination in [grid]".into()),
+        )]);
     }
     plan.baseline = match &study.report.baseline {
         Some(named) => plan.models.iter().position(|m| &m.choices == named),

@@ -10,7 +10,7 @@ use crate::exit::Failure;
 
 /// Fixed columns that come after `model_id` and the dimension columns. Dimension names must not
 /// collide with these (checked when the table is created).
-pub const FIXED_COLUMNS: [&str; 22] = [
+pub const FIXED_COLUMNS: [&str; 25] = [
     "model_id",
     "errors",
     "term",
@@ -29,6 +29,9 @@ pub const FIXED_COLUMNS: [&str; 22] = [
     "condition_number",
     "het_test_stat",
     "het_test_p_value",
+    "within_r_squared",
+    "absorbed",
+    "weights",
     "dropped",
     "outcome_term",
     "status",
@@ -54,6 +57,12 @@ pub struct ModelStats {
     pub het_test_stat: Option<f64>,
     /// Its p-value.
     pub het_test_p_value: Option<f64>,
+    /// R² within the absorbed effects' levels (only when the model absorbs effects).
+    pub within_r_squared: Option<f64>,
+    /// Absorbed fixed effects, source columns joined by "; " (empty when none).
+    pub absorbed: String,
+    /// Weights as `kind:column` (empty when unweighted).
+    pub weights: String,
     /// Names of the columns dropped as collinear, joined by "; ".
     pub dropped: String,
     /// The outcome form's label.
@@ -181,6 +190,15 @@ impl ResultsTable {
             float("condition_number", &|i| s[i].condition_number),
             float("het_test_stat", &|i| s[i].het_test_stat),
             float("het_test_p_value", &|i| s[i].het_test_p_value),
+            float("within_r_squared", &|i| s[i].within_r_squared),
+            Column::new(
+                "absorbed".into(),
+                s.iter().map(|m| m.absorbed.as_str()).collect::<Vec<_>>(),
+            ),
+            Column::new(
+                "weights".into(),
+                s.iter().map(|m| m.weights.as_str()).collect::<Vec<_>>(),
+            ),
             Column::new(
                 "dropped".into(),
                 s.iter().map(|m| m.dropped.as_str()).collect::<Vec<_>>(),

@@ -3,7 +3,7 @@
 use toml::de::DeValue;
 
 use super::values::{Reader, Val};
-use crate::plan::{Term, Transform};
+use crate::plan::{Term, Transform, WeightKind};
 use crate::problem::{quoted_list, suggestion};
 
 /// Highest polynomial degree accepted (numerical accuracy of high powers degrades quickly).
@@ -207,7 +207,16 @@ fn percent(q: f64) -> String {
 }
 
 /// Keys of a term written as a table.
-const TERM_KEYS: &[&str] = &["column", "form", "categorical", "reference", "product"];
+const TERM_KEYS: &[&str] = &[
+    "column",
+    "form",
+    "categorical",
+    "reference",
+    "product",
+    "absorb",
+    "weights",
+    "kind",
+];
 
 /// Read a term specification: `"col"` (level), `{ column, form }`, `{ categorical, reference }`
 /// or `{ product = [A, B] }`. A polynomial form gives several terms.
@@ -228,19 +237,28 @@ pub(crate) fn read_terms(r: &mut Reader<'_>, value: &Val<'_>, what: &str) -> Opt
         }
     };
     r.check_keys(table, TERM_KEYS, what);
-    let kinds: Vec<&str> = ["column", "categorical", "product"]
+    let kinds: Vec<&str> = ["column", "categorical", "product", "absorb", "weights"]
         .into_iter()
         .filter(|k| table.contains_key(*k))
         .collect();
     if kinds.len() != 1 {
         r.report(
             value.span().start,
-            format!("{what} must have exactly one of `column`, `categorical`, `product`"),
+            format!("{what} must have exactly one of `column`, `categorical`, `product`, `absorb`, `weights`"),
             None,
         );
         return None;
     }
     let misplaced = |key: &str| table.get(key).map(|v| (key.to_string(), v.span().start));
+    if kinds[0] != "weights" {
+        if let Some((key, at)) = misplaced("kind") {
+            r.report(
+                at,
+                format!("`{key}` applies only to a `weights` term in {what}"),
+                None,
+            );
+        }
+    }
     match kinds[0] {
         "column" => {
             if let Some((key, at)) = misplaced("reference") {
@@ -274,6 +292,37 @@ pub(crate) fn read_terms(r: &mut Reader<'_>, value: &Val<'_>, what: &str) -> Opt
                 None => None,
             };
             Some(vec![Term::Categorical { column, reference }])
+        }
+        "absorb" | "weights" => {
+            for key in ["form", "reference"] {
+                if let Some((key, at)) = misplaced(key) {
+                    r.report(
+                        at,
+                        format!("`{key}` does not apply to `{}` in {what}", kinds[0]),
+                        None,
+                    );
+                }
+            }
+            let column = r.name(&table[kinds[0]], &format!("`{}` of {what}", kinds[0]))?;
+            if kinds[0] == "absorb" {
+                return Some(vec![Term::Absorbed { column }]);
+            }
+            let kind = match table.get("kind") {
+                None => WeightKind::Analytic,
+                Some(v) => match r.string(v, &format!("`kind` of {what}"))?.as_str() {
+                    "analytic" => WeightKind::Analytic,
+                    "frequency" => WeightKind::Frequency,
+                    other => {
+                        r.report(
+                            v.span().start,
+                            format!("unknown weights kind `{other}` in {what}"),
+                            Some(suggestion(other, &["analytic", "frequency"])),
+                        );
+                        return None;
+                    }
+                },
+            };
+            Some(vec![Term::Weights { column, kind }])
         }
         _ => {
             for key in ["form", "reference"] {
@@ -313,6 +362,16 @@ fn product(r: &mut Reader<'_>, value: &Val<'_>, what: &str) -> Option<Term> {
     for (i, side) in sides.iter().enumerate() {
         let side_place = format!("side {} of {place}", i + 1);
         let mut terms = read_terms(r, side, &side_place)?;
+        if terms.iter().any(Term::is_design_setting) {
+            r.report(
+                side.span().start,
+                format!(
+                    "{side_place} is an absorbed effect or weights, which cannot enter a product"
+                ),
+                Some("interact with an explicit { categorical = ... } term instead".into()),
+            );
+            return None;
+        }
         if terms.len() != 1 {
             r.report(
                 side.span().start,

@@ -258,7 +258,17 @@ fn read_focus(r: &mut Reader<'_>, t: &DeTable<'_>, at: usize) -> Option<FocusCho
         .and_then(|v| r.name(v, "`column` in [focus]"));
     let forms = read_forms(r, t.get("forms"), "[focus]");
     let also_track = match t.get("also_track") {
-        Some(v) => term_list(r, v, "`also_track` in [focus]"),
+        Some(v) => term_list(r, v, "`also_track` in [focus]").and_then(|terms| {
+            if terms.iter().any(Term::is_design_setting) {
+                r.report(
+                    v.span().start,
+                    "`also_track` lists absorbed effects or weights, which have no coefficient",
+                    Some("track an explicit term instead".into()),
+                );
+                return None;
+            }
+            Some(terms)
+        }),
         None => Some(Vec::new()),
     };
     let column = column?;

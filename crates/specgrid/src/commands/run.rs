@@ -5,7 +5,7 @@ use std::time::Instant;
 
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use specgrid_data::{Assembly, LoadedData, SampleDesign};
-use specgrid_ols::{Covariance, FitOptions, ModelError, ModelFit, SharedFactor};
+use specgrid_ols::{Covariance, FitOptions, ModelError, ModelFit};
 use specgrid_report::{Scale, StoredEffects};
 
 use specgrid_study::Plan;
@@ -196,7 +196,13 @@ fn baseline_residuals(plan: &Plan, estimated: &[Estimated<'_>]) -> Option<Vec<(f
     let b = plan.baseline?;
     let result = &estimated[b];
     let fit = result.fit.as_ref().ok()?;
-    let design = &result.design.design;
+    // With absorbed effects or weights the fit lives on the prepared design: within (and
+    // weighted) fitted values and residuals.
+    let design = result
+        .design
+        .absorbed
+        .as_ref()
+        .map_or(&result.design.design, |prepared| &prepared.design);
     let outcome = result.design.outcome_columns[plan.models[b].outcome]?;
     let n = design.x.nrows();
     let step = n.div_ceil(RESIDUAL_POINTS).max(1);
@@ -251,7 +257,8 @@ fn estimate<'a>(
     let mut slots: Vec<Option<Estimated<'a>>> = (0..plan.models.len()).map(|_| None).collect();
     for (design_index, design) in assembly.designs.iter().enumerate() {
         progress.set_message(format!("sample `{}`", design.sample_name));
-        let factor = SharedFactor::new(&design.design)
+        let factor = design
+            .factor()
             .map_err(|e| Failure::Estimation(format!("sample `{}`: {e}", design.sample_name)))?;
         let specs = design
             .models
@@ -344,6 +351,9 @@ fn append_model(
                 condition_number: Some(fit.condition_number),
                 het_test_stat: fit.breusch_pagan.map(|b| b.statistic),
                 het_test_p_value: fit.breusch_pagan.map(|b| b.p_value),
+                within_r_squared: fit.within_r_squared,
+                absorbed: estimated.design.absorbed_columns(plan).join("; "),
+                weights: estimated.design.weights_label(plan).unwrap_or_default(),
                 dropped: fit
                     .dropped
                     .iter()
@@ -383,6 +393,8 @@ fn append_model(
         Err(error) => {
             let stats = ModelStats {
                 outcome,
+                absorbed: estimated.design.absorbed_columns(plan).join("; "),
+                weights: estimated.design.weights_label(plan).unwrap_or_default(),
                 ..ModelStats::default()
             };
             let message = error.to_string();
