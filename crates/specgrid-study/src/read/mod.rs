@@ -5,6 +5,7 @@ mod samples;
 mod sections;
 mod settings;
 mod values;
+mod verdict;
 
 use std::path::Path;
 
@@ -17,7 +18,7 @@ pub(crate) use values::Reader;
 
 /// Top-level tables a study file may have.
 const TOP_LEVEL: &[&str] = &[
-    "study", "outcome", "focus", "controls", "samples", "errors", "grid",
+    "study", "outcome", "focus", "controls", "samples", "errors", "grid", "verdict",
 ];
 
 /// Read and check a study file. Returns every problem found, sorted by position, rather than
