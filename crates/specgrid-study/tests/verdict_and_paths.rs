@@ -56,10 +56,12 @@ fn verdict_problems_are_positioned_with_hints() {
 
 #[test]
 fn data_outside_the_study_folder_needs_the_explicit_key() {
-    for outside in ["../elsewhere/plots.csv", "/tmp/plots.csv", "a/../../plots.csv"] {
-        let text = format!(
-            "[study]\ntitle = \"t\"\ndata = \"{outside}\"\n{DECISIONS}"
-        );
+    for outside in [
+        "../elsewhere/plots.csv",
+        "/tmp/plots.csv",
+        "a/../../plots.csv",
+    ] {
+        let text = format!("[study]\ntitle = \"t\"\ndata = \"{outside}\"\n{DECISIONS}");
         let all = problems(&text);
         assert_eq!(all.len(), 1, "{all:?}");
         assert_eq!((all[0].line, all[0].column), (3, 8), "{outside}");
@@ -75,7 +77,14 @@ fn data_outside_the_study_folder_needs_the_explicit_key() {
         assert!(allowed.data_path.ends_with("plots.csv"));
     }
     // Paths that stay inside need nothing, even with `..` steps that come back.
-    for inside in ["plots.csv", "./data/plots.csv", "data/../plots.csv", "données été/parcelles.csv"] {
-        study(&format!("[study]\ntitle = \"t\"\ndata = \"{inside}\"\n{DECISIONS}"));
+    for inside in [
+        "plots.csv",
+        "./data/plots.csv",
+        "data/../plots.csv",
+        "données été/parcelles.csv",
+    ] {
+        study(&format!(
+            "[study]\ntitle = \"t\"\ndata = \"{inside}\"\n{DECISIONS}"
+        ));
     }
 }

@@ -23,14 +23,7 @@ pub(crate) fn read_study(r: &mut Reader<'_>, doc: &DeTable<'_>) -> Option<Study>
         r,
         doc,
         "study",
-        &[
-            "title",
-            "data",
-            "seed",
-            "rows",
-            "intercept",
-            ALLOW_OUTSIDE,
-        ],
+        &["title", "data", "seed", "rows", "intercept", ALLOW_OUTSIDE],
     );
     let outcome_t = section(r, doc, "outcome", &["column", "forms"]);
     let focus_t = section(r, doc, "focus", &["column", "forms", "also_track"]);
