@@ -3,8 +3,12 @@
 mod cli;
 mod commands;
 mod exit;
+mod interrupt;
+mod manifest;
+mod memory;
 mod output;
 mod results;
+mod verdict;
 
 use std::process::ExitCode;
 
@@ -12,6 +16,7 @@ use clap::Parser;
 
 fn main() -> ExitCode {
     let cli = cli::Cli::parse();
+    interrupt::install();
     match commands::dispatch(cli.command) {
         Ok(()) => ExitCode::SUCCESS,
         Err(failure) => {

@@ -37,6 +37,15 @@ pub fn render(
     rows: &[ResultRow],
     dir: &Path,
 ) -> Result<String, Failure> {
+    let report = build(record, study_text, rows)?;
+    report
+        .write_all(dir)
+        .map_err(|e| Failure::Output(e.to_string()))?;
+    Ok(report.terminal())
+}
+
+/// Builds the report from result rows.
+fn build(record: &RunRecord, study_text: String, rows: &[ResultRow]) -> Result<Report, Failure> {
     let header = ReportHeader {
         title: record.title.clone(),
         significance_level: record.significance_level,
@@ -55,16 +64,24 @@ pub fn render(
         .collect();
     let input = ReportInput::from_rows(header, dimensions, rows)
         .map_err(|e| Failure::Output(format!("cannot build the report: {e}")))?;
-    let report = Report::build(input)
-        .map_err(|e| Failure::Output(format!("cannot build the report: {e}")))?;
-    report
-        .write_all(dir)
-        .map_err(|e| Failure::Output(e.to_string()))?;
-    Ok(report.terminal())
+    Report::build(input).map_err(|e| Failure::Output(format!("cannot build the report: {e}")))
 }
 
 /// `specgrid report DIR`: re-render the report files of a results folder in place.
 pub fn run(dir: &Path) -> Result<(), Failure> {
+    let (record, study_text, rows) = read_folder(dir)?;
+    print!("{}", render(&record, study_text, &rows, dir)?);
+    Ok(())
+}
+
+/// The report of a results folder, rebuilt from its files (for comparing two runs).
+pub(crate) fn load(dir: &Path) -> Result<Report, Failure> {
+    let (record, study_text, rows) = read_folder(dir)?;
+    build(&record, study_text, &rows)
+}
+
+/// What re-rendering needs from a results folder: `run.json`, `study.toml`, `models.parquet`.
+fn read_folder(dir: &Path) -> Result<(RunRecord, String, Vec<ResultRow>), Failure> {
     let record_path = dir.join("run.json");
     let record: RunRecord =
         serde_json::from_str(&fs::read_to_string(&record_path).map_err(|e| {
@@ -77,8 +94,7 @@ pub fn run(dir: &Path) -> Result<(), Failure> {
         .map_err(|e| Failure::Data(format!("{}: {e}", record_path.display())))?;
     let study_text = fs::read_to_string(dir.join("study.toml")).unwrap_or_default();
     let rows = read_rows(&dir.join("models.parquet"), &record)?;
-    print!("{}", render(&record, study_text, &rows, dir)?);
-    Ok(())
+    Ok((record, study_text, rows))
 }
 
 /// Reads `models.parquet` back into report rows.

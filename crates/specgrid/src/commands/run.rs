@@ -10,6 +10,7 @@ use specgrid_ols::{Covariance, FitOptions, ModelError, ModelFit, SharedFactor};
 use specgrid_study::Plan;
 
 use super::report::{self, RunRecord};
+use super::rerun::{self, Inputs, RerunOptions};
 use crate::exit::Failure;
 use crate::output::Staging;
 use crate::results::{write_csv, write_parquet, ModelStats, ResultsTable, TermValues};
@@ -26,6 +27,8 @@ pub struct RunOptions {
     pub threads: Option<usize>,
     /// No progress bar.
     pub quiet: bool,
+    /// Skipping, comparison, verdict, memory bound.
+    pub rerun: RerunOptions,
 }
 
 /// One model's outcome: where it was fitted and what came back.
@@ -43,7 +46,13 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
             .build_global()
             .map_err(|e| Failure::Estimation(format!("cannot start {n} worker threads: {e}")))?;
     }
-    let plan = super::load_plan(&options.study)?;
+    let (study, plan) = super::load_study_plan(&options.study, options.rerun.max_memory)?;
+    let study_text = std::fs::read_to_string(&options.study)
+        .map_err(|e| Failure::Study(format!("{}: {e}", options.study.display())))?;
+    let inputs = Inputs::hash(&study_text, &plan)?;
+    if let Some(skipped) = rerun::skip_unchanged(&options.out, &inputs, options.rerun.force) {
+        return skipped;
+    }
     let dimension_names: Vec<String> = plan.dimensions.iter().map(|d| d.name.clone()).collect();
     let mut models = ResultsTable::new(&dimension_names)?;
     let data = specgrid_data::load(&plan).map_err(|e| Failure::Data(e.to_string()))?;
@@ -78,21 +87,21 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         significance_level: plan.significance_level,
         confidence_level: plan.confidence_level,
         baseline_model_id: plan.baseline.map(|i| plan.models[i].id.clone()),
-        data_fingerprint: specgrid_data::fingerprint(&plan.data_path)
-            .map_err(|e| Failure::Data(e.to_string()))?,
+        data_fingerprint: inputs.data_sha256.clone(),
         dimensions: plan
             .dimensions
             .iter()
             .map(|d| (d.name.clone(), d.options.clone()))
             .collect(),
     };
-    let study_text = std::fs::read_to_string(&options.study)
-        .map_err(|e| Failure::Study(format!("{}: {e}", options.study.display())))?;
     write_text(&staging.file("study.toml"), &study_text)?;
     let record_json = serde_json::to_string_pretty(&record)
         .map_err(|e| Failure::Output(format!("run.json: {e}")))?;
     write_text(&staging.file("run.json"), &record_json)?;
     let terminal = report::render(&record, study_text, &models.report_rows(), staging.dir())?;
+    let (rerun_text, verdict) = rerun::compare_and_judge(&staging, &study, &options.rerun)?;
+    rerun::write_manifest(&staging, &plan, &assembly, data.n_rows, &inputs)?;
+    rerun::pause_for_tests();
     let written = staging.commit()?;
 
     let failed = estimated.iter().filter(|e| e.fit.is_err()).count();
@@ -104,7 +113,11 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         written.display()
     );
     print!("{terminal}");
-    Ok(())
+    print!("{rerun_text}");
+    match verdict.and_then(|v| v.failure()) {
+        Some(failure) => Err(failure),
+        None => Ok(()),
+    }
 }
 
 fn write_text(path: &std::path::Path, text: &str) -> Result<(), Failure> {
