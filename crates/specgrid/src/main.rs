@@ -2,6 +2,7 @@
 
 mod cli;
 mod commands;
+mod data_guard;
 mod exit;
 mod interrupt;
 mod manifest;
@@ -17,6 +18,7 @@ use clap::Parser;
 fn main() -> ExitCode {
     let cli = cli::Cli::parse();
     interrupt::install();
+    data_guard::install_panic_hook();
     match commands::dispatch(cli.command) {
         Ok(()) => ExitCode::SUCCESS,
         Err(failure) => {

@@ -55,9 +55,7 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
     }
     let dimension_names: Vec<String> = plan.dimensions.iter().map(|d| d.name.clone()).collect();
     let mut models = ResultsTable::new(&dimension_names)?;
-    let data = specgrid_data::load(&plan).map_err(|e| Failure::Data(e.to_string()))?;
-    let assembly =
-        specgrid_data::assemble(&plan, &data).map_err(|e| Failure::Data(e.to_string()))?;
+    let (data, assembly) = crate::data_guard::load_and_assemble(&plan)?;
     for warning in &assembly.warnings {
         eprintln!("warning: {warning}");
     }
