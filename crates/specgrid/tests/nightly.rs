@@ -407,3 +407,36 @@ fn a_grid_whose_results_would_not_fit_is_refused_up_front_with_the_estimate() {
     assert!(!out.exists());
     assert!(run(&study, &out, &["--max-memory", "64"]).status.success());
 }
+
+#[test]
+fn comparing_with_something_that_is_not_a_results_folder() {
+    let (dir, study) = setup(0.8);
+    let out = dir.path().join("res");
+    assert!(run(&study, &out, &[]).status.success());
+    let empty = dir.path().join("empty");
+    fs::create_dir(&empty).unwrap();
+    // `compare` refuses, naming the folder, with the data exit code.
+    let o = specgrid(
+        &["compare", empty.to_str().unwrap(), out.to_str().unwrap()],
+        dir.path(),
+    );
+    assert_eq!(o.status.code(), Some(4), "{}", text(&o));
+    assert!(
+        text(&o).contains("is") && text(&o).contains("empty"),
+        "{}",
+        text(&o)
+    );
+    // `run --against` keeps its new results and says why there is no comparison; the flip
+    // rule is then not checked, the other rules hold.
+    let o = run(
+        &study,
+        &out,
+        &["--force", "--against", empty.to_str().unwrap()],
+    );
+    assert!(o.status.success(), "{}", text(&o));
+    assert!(text(&o).contains("nothing to compare with"), "{}", text(&o));
+    let verdict = json(&out.join("verdict.json"));
+    assert_eq!(verdict["holds"], true);
+    assert_eq!(verdict["not_checked"].as_array().unwrap().len(), 1);
+    assert!(!out.join("comparison.json").exists());
+}

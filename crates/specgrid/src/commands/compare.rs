@@ -60,8 +60,9 @@ fn verdict_of(dir: &Path) -> Result<Option<Verdict>, Failure> {
 }
 
 /// Compares `new` with `old` (when given) and judges `rules` (when given), writing the results
-/// into `new`. `in_report` puts the comparison section into `new`'s report.html (a folder
-/// still being staged); otherwise a standalone comparison.html is written.
+/// into `new`. `in_report` is the `run --against` mode: the comparison section goes into
+/// `new`'s report.html (a folder still being staged) and an earlier folder that cannot be
+/// compared is a warning, not an error; otherwise a standalone comparison.html is written.
 pub(crate) fn compare_folders(
     old: Option<&Path>,
     new: &Path,
@@ -74,15 +75,25 @@ pub(crate) fn compare_folders(
     let label = errors.or(rules.and_then(|r| r.errors.as_deref()));
     let comparison = match old {
         Some(old) => {
-            let old_report = report::load(old)?;
-            let c = compare(&old_report, &new_report, label, tolerance).map_err(|e| {
-                Failure::Data(format!(
-                    "cannot compare {} with {}: {e}",
-                    old.display(),
-                    new.display()
-                ))
-            })?;
-            Some(c)
+            let compared = report::load(old).and_then(|old_report| {
+                compare(&old_report, &new_report, label, tolerance).map_err(|e| {
+                    Failure::Data(format!(
+                        "cannot compare {} with {}: {e}",
+                        old.display(),
+                        new.display()
+                    ))
+                })
+            });
+            match compared {
+                Ok(c) => Some(c),
+                // A run keeps its new results when the earlier folder cannot be compared; the
+                // flip rule is then reported as not checked.
+                Err(failure) if in_report => {
+                    eprintln!("warning: no comparison: {failure}");
+                    None
+                }
+                Err(failure) => return Err(failure),
+            }
         }
         None => None,
     };
