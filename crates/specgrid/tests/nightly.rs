@@ -7,10 +7,10 @@ mod common;
 use std::collections::BTreeSet;
 use std::fs;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output, Stdio};
+use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
 
-use common::{floats, read_parquet, specgrid, strings, text};
+use common::{floats, read_parquet, run_study as run, specgrid, strings, text};
 
 /// Exit code of a failed verdict (docs/cli.md).
 const VERDICT_FAILED: i32 = 7;
@@ -67,18 +67,6 @@ fn setup(slope: f64) -> (tempfile::TempDir, PathBuf) {
     let study = dir.path().join("study.toml");
     fs::write(&study, STUDY).unwrap();
     (dir, study)
-}
-
-fn run(study: &Path, out: &Path, extra: &[&str]) -> Output {
-    let mut args = vec![
-        "run",
-        study.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ];
-    args.extend_from_slice(extra);
-    specgrid(&args, study.parent().unwrap())
 }
 
 fn files(dir: &Path) -> BTreeSet<String> {
