@@ -34,7 +34,7 @@ impl Staging {
             .file_name()
             .map(|n| n.to_string_lossy().into_owned())
             .unwrap_or_else(|| "results".into());
-        remove_abandoned(&parent, &name);
+        recover(target);
         let staging = parent.join(format!(".{name}.partial-{}", std::process::id()));
         let mut registry = interrupt::lock();
         if staging.exists() {
@@ -101,13 +101,23 @@ impl Drop for Staging {
     }
 }
 
-/// Removes `.NAME.partial-PID` folders (and their `.previous` twins) whose process is gone:
-/// left by a run killed with SIGKILL or a power cut, which no handler can clean up. Only on
-/// systems with /proc, where "is that process alive" has a cheap answer.
-fn remove_abandoned(parent: &Path, name: &str) {
+/// Cleans up after runs that were killed outright (SIGKILL, a power cut), which no handler can
+/// do: removes their `.NAME.partial-PID` staging folders, and when such a run died between
+/// moving the old results aside and moving the new ones in, puts the old results
+/// (`.NAME.partial-PID.previous`) back (or removes them when the new ones are in place).
+/// Only on systems with /proc, where "is that process
+/// alive" has a cheap answer.
+pub fn recover(target: &Path) {
     if !Path::new("/proc/self").exists() {
         return;
     }
+    let parent = match target.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p,
+        _ => Path::new("."),
+    };
+    let Some(name) = target.file_name().map(|n| n.to_string_lossy().into_owned()) else {
+        return;
+    };
     let prefix = format!(".{name}.partial-");
     let Ok(entries) = fs::read_dir(parent) else {
         return;
@@ -117,11 +127,20 @@ fn remove_abandoned(parent: &Path, name: &str) {
         let Some(rest) = file_name.strip_prefix(&prefix) else {
             continue;
         };
-        let pid = rest.trim_end_matches(".previous");
-        let alive = pid.parse::<u32>().is_ok_and(|pid| {
-            pid == std::process::id() || Path::new(&format!("/proc/{pid}")).exists()
-        });
-        if !alive && !file_name.ends_with(".previous") {
+        let previous = rest.ends_with(".previous");
+        let alive = rest
+            .trim_end_matches(".previous")
+            .parse::<u32>()
+            .is_ok_and(|pid| {
+                pid == std::process::id() || Path::new(&format!("/proc/{pid}")).exists()
+            });
+        if alive {
+            continue;
+        }
+        if previous && !target.exists() {
+            let _ = fs::rename(entry.path(), target);
+        } else {
+            // A staging folder, or old results the new ones already replaced.
             let _ = fs::remove_dir_all(entry.path());
         }
     }

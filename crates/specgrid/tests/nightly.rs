@@ -428,3 +428,22 @@ fn comparing_with_something_that_is_not_a_results_folder() {
     assert_eq!(verdict["not_checked"].as_array().unwrap().len(), 1);
     assert!(!out.join("comparison.json").exists());
 }
+
+#[test]
+fn old_results_moved_aside_by_a_run_killed_mid_commit_are_put_back() {
+    let (dir, study) = setup(0.8);
+    let out = dir.path().join("res");
+    assert!(run(&study, &out, &[]).status.success());
+    let before = snapshot(&out);
+    // What a run killed between its two renames leaves: the old results moved aside under the
+    // name of a process that no longer exists (pid_max on Linux is at most 2^22, common
+    // practice), and no folder at --out.
+    let aside = dir.path().join(".res.partial-4194999.previous");
+    fs::rename(&out, &aside).unwrap();
+    // The next run fails on broken data, yet the old results are back in place.
+    fs::write(dir.path().join("plots.csv"), "y,x\n1,2\n").unwrap();
+    let o = run(&study, &out, &[]);
+    assert_eq!(o.status.code(), Some(4), "{}", text(&o));
+    assert_eq!(snapshot(&out), before);
+    assert!(!aside.exists());
+}

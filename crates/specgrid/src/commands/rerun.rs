@@ -47,9 +47,12 @@ impl Inputs {
     }
 }
 
+/// Recovers what a killed run left at `out` (see [`crate::output::recover`]), then:
 /// `Some(result)` when `out` already holds a run of the same study and data and `--force` is
 /// not given: the run is skipped, and exits as that run's verdict did.
 pub fn skip_unchanged(out: &Path, inputs: &Inputs, force: bool) -> Option<Result<(), Failure>> {
+    // First put back results a killed run left aside, so they are compared and kept.
+    crate::output::recover(out);
     if force {
         return None;
     }
