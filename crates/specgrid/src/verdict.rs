@@ -177,3 +177,107 @@ pub fn judge(
         not_checked,
     })
 }
+
+#[cfg(test)]
+mod tests {
+    use specgrid_report::{DimensionInfo, Effect, ModelEntry, ModelStatus, ReportInput, Scale};
+
+    use super::*;
+
+    /// Four models on one decision with estimates 1, 2, −1, 3 and standard errors 0.25, 0.5,
+    /// 0.25, 5 (t = 4, 4, −4, 0.6 with 100 df); the baseline is the first.
+    fn report() -> Report {
+        let model = |id: &str, choice: usize, estimate: f64, se: f64| ModelEntry {
+            model_id: id.into(),
+            choices: vec![choice],
+            status: ModelStatus::Ok,
+            effects: vec![Some(Effect::coefficient(estimate, Some(se), 100.0))],
+            n_obs: Some(102),
+            n_params: Some(2),
+            r_squared: Some(0.5),
+            resid_sd: Some(1.0),
+            het_p_value: None,
+            outcome_label: "y".into(),
+        };
+        Report::build(ReportInput {
+            title: "t".into(),
+            scale: Scale::Coefficient,
+            effect_label: "x".into(),
+            dimensions: vec![DimensionInfo {
+                name: "d".into(),
+                options: vec!["a".into(), "b".into(), "c".into(), "e".into()],
+            }],
+            error_labels: vec!["hc1".into()],
+            significance_level: 0.05,
+            confidence_level: 0.95,
+            baseline_model_id: None,
+            models: vec![
+                model("m1", 0, 1.0, 0.25),
+                model("m2", 1, 2.0, 0.5),
+                model("m3", 2, -1.0, 0.25),
+                model("m4", 3, 3.0, 5.0),
+            ],
+            study_text: String::new(),
+            data_fingerprint: String::new(),
+            baseline_residuals: None,
+        })
+        .unwrap()
+    }
+
+    fn rules() -> Verdict {
+        Verdict {
+            errors: None,
+            min_share_baseline_sign: None,
+            min_share_significant: None,
+            baseline_significant: false,
+            max_sign_flips: None,
+        }
+    }
+
+    #[test]
+    fn shares_are_judged_against_their_thresholds() {
+        // Baseline sign (+) in 3 of 4 models; significant and positive in 2 of 4 (|t| > 1.984
+        // with 100 df, t table from memory): m1 and m2.
+        let r = report();
+        let judge_with = |v: Verdict| judge(&v, &r, None).unwrap();
+        let sign = |min| Verdict {
+            min_share_baseline_sign: Some(min),
+            ..rules()
+        };
+        assert!(judge_with(sign(0.75)).holds);
+        assert!(!judge_with(sign(0.76)).holds);
+        let significant = |min| Verdict {
+            min_share_significant: Some(min),
+            ..rules()
+        };
+        assert!(judge_with(significant(0.5)).holds);
+        let failed = judge_with(significant(0.51));
+        assert!(!failed.holds);
+        assert!(matches!(failed.failure(), Some(Failure::Verdict(_))));
+        let baseline = judge_with(Verdict {
+            baseline_significant: true,
+            ..rules()
+        });
+        assert!(baseline.holds, "{:?}", baseline.rules);
+    }
+
+    #[test]
+    fn the_flip_rule_needs_an_earlier_run() {
+        let r = report();
+        let v = Verdict {
+            max_sign_flips: Some(0),
+            ..rules()
+        };
+        let alone = judge(&v, &r, None).unwrap();
+        assert!(alone.holds && alone.rules.is_empty());
+        assert_eq!(alone.not_checked.len(), 1);
+        let same = specgrid_report::compare(&r, &r, None, Default::default()).unwrap();
+        let compared = judge(&v, &r, Some(&same)).unwrap();
+        assert!(compared.holds && compared.rules.len() == 1);
+        let unknown = Verdict {
+            errors: Some("hc3".into()),
+            ..rules()
+        };
+        assert!(matches!(judge(&unknown, &r, None), Err(Failure::Data(_))));
+    }
+}
