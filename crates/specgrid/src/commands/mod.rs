@@ -63,11 +63,12 @@ pub fn dispatch(command: Command) -> Result<(), Failure> {
 /// Reads and plans a study, turning every problem into one [`Failure::Study`] that lists them
 /// all, one per line.
 pub(crate) fn load_plan(study: &Path) -> Result<Plan, Failure> {
-    load_study_plan(study, None).map(|(_, plan)| plan)
+    let parsed = load_study(study).map_err(study_failure)?;
+    specgrid_study::plan(&parsed).map_err(study_failure)
 }
 
-/// Reads a study, refuses it up front if its results would not fit in memory (the grid is
-/// counted, not built), and plans it.
+/// For `run`: reads a study, refuses it up front if its results would not fit in memory (the
+/// grid is counted, not built), and plans it.
 pub(crate) fn load_study_plan(
     study: &Path,
     max_memory_mib: Option<u64>,
