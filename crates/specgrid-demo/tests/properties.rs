@@ -37,8 +37,12 @@ fn same_seed_same_bytes_and_other_seed_other_bytes() {
 fn committed_demo_csv_matches_the_generator() {
     // Tripwire: if the process or draw order changes, regenerate demo-data/orchards.csv and
     // update demo-data/README.md (see its "Regenerate" section).
-    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/../../demo-data/orchards.csv");
-    let committed = std::fs::read(path).expect("demo-data/orchards.csv is committed");
+    // The runtime value (set by cargo test) so a test binary built from another checkout that
+    // shares the target folder still reads this checkout's file.
+    let dir =
+        std::env::var("CARGO_MANIFEST_DIR").unwrap_or_else(|_| env!("CARGO_MANIFEST_DIR").into());
+    let path = format!("{dir}/../../demo-data/orchards.csv");
+    let committed = std::fs::read(&path).expect("demo-data/orchards.csv is committed");
     assert!(
         committed == csv_bytes(default_table()),
         "demo-data/orchards.csv differs from generate(&OrchardConfig::default()); regenerate it"

@@ -5,6 +5,7 @@ pub mod api;
 mod dense;
 mod finish;
 mod independent;
+pub mod inference;
 mod model_core;
 mod plan;
 mod refine;

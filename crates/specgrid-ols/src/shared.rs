@@ -5,7 +5,7 @@ use faer::Mat;
 use rayon::prelude::*;
 
 use crate::api::{Design, EngineError, FitOptions, ModelError, ModelFit, ModelSpec};
-use crate::dense::{householder_in_place, is_constant_nonzero, unit_scale};
+use crate::dense::{householder_in_place, is_constant_nonzero, thin_q, unit_scale};
 use crate::finish::finish;
 use crate::model_core::{core_from_factor, CoreFit, FactorParts, ModelTss};
 use crate::plan::Plan;
@@ -36,6 +36,10 @@ pub struct SharedFactor<'a> {
     x_colsum: Vec<f64>,
     /// Total sums of squares per outcome.
     tss: Vec<ModelTss>,
+    /// The first min(n, p) columns of Q (an orthonormal basis of the union X columns' span),
+    /// kept only by [`SharedFactor::new_for_refits`]; outcome-only refits multiply new outcomes
+    /// by it (see `inference::refit`).
+    x_basis: Option<Mat<f64>>,
 }
 
 /// Per-thread buffers for the per-model small factorisations.
@@ -55,6 +59,17 @@ struct CoreWork {
 impl<'a> SharedFactor<'a> {
     /// Validates the design and factors its scaled union [X | Y] once.
     pub fn new(design: &'a Design) -> Result<SharedFactor<'a>, EngineError> {
+        Self::build(design, false)
+    }
+
+    /// As [`SharedFactor::new`], and also keeps an orthonormal basis of the union regressors
+    /// (n × min(n, p) more memory) so that the grid can be refitted on new outcome vectors
+    /// without factoring X again (`inference::OutcomeRefit`).
+    pub fn new_for_refits(design: &'a Design) -> Result<SharedFactor<'a>, EngineError> {
+        Self::build(design, true)
+    }
+
+    fn build(design: &'a Design, keep_basis: bool) -> Result<SharedFactor<'a>, EngineError> {
         check_design(design)?;
         let (n, p, m) = (design.x.nrows(), design.x.ncols(), design.y.ncols());
         let x_scales: Vec<f64> = (0..p).map(|j| unit_scale(design.x.col(j))).collect();
@@ -72,7 +87,8 @@ impl<'a> SharedFactor<'a> {
                 .zip(design.y.col(j).iter())
                 .for_each(|(d, v)| *d = v / s);
         }
-        householder_in_place(&mut z);
+        let coeff = householder_in_place(&mut z);
+        let x_basis = keep_basis.then(|| thin_q(z.as_ref(), coeff.as_ref(), n.min(p)));
         let size = n.min(p + m);
         let mut r = Mat::<f64>::zeros(size, p + m);
         for j in 0..p + m {
@@ -93,7 +109,24 @@ impl<'a> SharedFactor<'a> {
             x_constant,
             x_colsum,
             tss,
+            x_basis,
         })
+    }
+
+    /// Upper-triangular factor of the scaled union [X | Y].
+    pub(crate) fn union_r(&self) -> faer::MatRef<'_, f64> {
+        self.r.as_ref()
+    }
+
+    /// 2-norm scale of each union column (the R columns are X divided by these).
+    pub(crate) fn x_scales(&self) -> &[f64] {
+        &self.x_scales
+    }
+
+    /// The kept orthonormal basis of the union columns, if built by
+    /// [`SharedFactor::new_for_refits`].
+    pub(crate) fn x_basis(&self) -> Option<faer::MatRef<'_, f64>> {
+        self.x_basis.as_ref().map(|q| q.as_ref())
     }
 
     /// The design this factor belongs to.

@@ -12,7 +12,11 @@ use specgrid_ols::{
 };
 
 fn nist_dir() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../tests/reference/nist")
+    PathBuf::from(
+        std::env::var("CARGO_MANIFEST_DIR")
+            .unwrap_or_else(|_| env!("CARGO_MANIFEST_DIR").to_string()),
+    )
+    .join("../../tests/reference/nist")
 }
 
 /// Reads a NIST CSV: header row, then numbers; returns the columns.

@@ -88,7 +88,11 @@ struct FixtureBreuschPagan {
 }
 
 fn fixture_dir() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../tests/reference/statsmodels/fixtures")
+    PathBuf::from(
+        std::env::var("CARGO_MANIFEST_DIR")
+            .unwrap_or_else(|_| env!("CARGO_MANIFEST_DIR").to_string()),
+    )
+    .join("../../tests/reference/statsmodels/fixtures")
 }
 
 fn load(case: &str) -> Fixture {

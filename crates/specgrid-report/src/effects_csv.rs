@@ -1,8 +1,11 @@
 //! `effects.csv`: every model's effect under every covariance choice, with its interval, p-value
 //! and the derived quantities (exp(b) − 1, turning point) and their delta-method SEs.
 
+use std::collections::HashMap;
+
+use crate::effect::{Derived, Effect};
 use crate::stats::two_sided_p;
-use crate::Report;
+use crate::{Report, ReportError};
 
 /// Column names of `effects.csv`, in order.
 pub const EFFECTS_COLUMNS: [&str; 12] = [
@@ -20,10 +23,18 @@ pub const EFFECTS_COLUMNS: [&str; 12] = [
     "turning_point_se",
 ];
 
-/// Shortest round-trip text of a finite number; empty for missing or non-finite values.
-fn cell(v: Option<f64>) -> String {
+/// Shortest round-trip text of a finite number (exponent form for very small or very large
+/// magnitudes, so a p-value of 1e-120 is not written as 120 zeros); empty for missing or
+/// non-finite values.
+pub(crate) fn cell(v: Option<f64>) -> String {
     match v {
-        Some(x) if x.is_finite() => format!("{x}"),
+        Some(x) if x.is_finite() => {
+            if x != 0.0 && (x.abs() < 1e-5 || x.abs() >= 1e16) {
+                format!("{x:e}")
+            } else {
+                format!("{x}")
+            }
+        }
         _ => String::new(),
     }
 }
@@ -70,4 +81,59 @@ pub fn render(report: &Report) -> String {
         .ok()
         .and_then(|b| String::from_utf8(b).ok())
         .unwrap_or_default()
+}
+
+/// Every model's effects read back from `effects.csv`, keyed by model id, then by covariance
+/// label. Used to re-render a report on the study's scale without re-estimating.
+pub type StoredEffects = HashMap<String, HashMap<String, Effect>>;
+
+/// Parses `effects.csv` as [`render`] writes it. Errors name the row and what to do.
+pub fn parse(text: &str) -> Result<StoredEffects, ReportError> {
+    let mut reader = csv::ReaderBuilder::new().from_reader(text.as_bytes());
+    let headers = reader
+        .headers()
+        .map_err(|e| ReportError::Input(format!("effects.csv: {e}")))?
+        .clone();
+    if headers.iter().ne(EFFECTS_COLUMNS.iter().copied()) {
+        return Err(ReportError::Input(format!(
+            "effects.csv: the header must be {}; the file is damaged or from another version, re-run the study",
+            EFFECTS_COLUMNS.join(",")
+        )));
+    }
+    let mut out: StoredEffects = HashMap::new();
+    for (n, record) in reader.records().enumerate() {
+        let row = n + 1;
+        let bad = |message: String| ReportError::Row { row, message };
+        let record = record.map_err(|e| bad(format!("effects.csv: {e}")))?;
+        let number = |i: usize| -> Result<Option<f64>, ReportError> {
+            let cell = record.get(i).unwrap_or("");
+            if cell.is_empty() {
+                return Ok(None);
+            }
+            cell.parse::<f64>().map(Some).map_err(|_| {
+                bad(format!(
+                    "effects.csv column `{}` holds `{cell}`, not a number; re-run the study",
+                    EFFECTS_COLUMNS[i]
+                ))
+            })
+        };
+        let derived = |v: usize, se: usize| -> Result<Option<Derived>, ReportError> {
+            Ok(number(v)?.map(|value| Derived {
+                value,
+                std_error: number(se).ok().flatten(),
+            }))
+        };
+        let estimate = number(2)?.ok_or_else(|| bad("effects.csv: empty `estimate`".into()))?;
+        let effect = Effect {
+            estimate,
+            std_error: number(3)?,
+            df: number(7)?.unwrap_or(f64::INFINITY),
+            proportional_change: derived(8, 9)?,
+            turning_point: derived(10, 11)?,
+        };
+        out.entry(record.get(0).unwrap_or("").to_string())
+            .or_default()
+            .insert(record.get(1).unwrap_or("").to_string(), effect);
+    }
+    Ok(out)
 }

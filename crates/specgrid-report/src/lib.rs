@@ -57,7 +57,7 @@ pub use effect::{
     effect, Derived, Effect, EffectError, EffectInputs, EvaluationPoint, FocusForm, OutcomeForm,
     Scale,
 };
-pub use effects_csv::EFFECTS_COLUMNS;
+pub use effects_csv::{parse as parse_effects_csv, StoredEffects, EFFECTS_COLUMNS};
 pub use input::{DimensionInfo, ModelEntry, ModelStatus, ReportInput};
 pub use rows::{dimensions_from_rows, ReportHeader, ResultRow};
 pub use summary::*;

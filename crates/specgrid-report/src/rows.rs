@@ -5,6 +5,7 @@
 use std::collections::HashMap;
 
 use crate::effect::{Effect, Scale};
+use crate::effects_csv::StoredEffects;
 use crate::input::{DimensionInfo, ModelEntry, ModelStatus, ReportInput};
 use crate::ReportError;
 
@@ -191,5 +192,21 @@ impl ReportInput {
             data_fingerprint: header.data_fingerprint,
             baseline_residuals: None,
         })
+    }
+}
+
+impl ReportInput {
+    /// Puts every model on the study's scale: its effect under each covariance choice is taken
+    /// from `effects` (model id → covariance label → effect); a model or choice missing there
+    /// has no number (failed models, or a conversion undefined at the evaluation point).
+    pub fn set_effects(&mut self, scale: Scale, effect_label: String, effects: &StoredEffects) {
+        self.scale = scale;
+        self.effect_label = effect_label;
+        for m in &mut self.models {
+            let stored = effects.get(&m.model_id);
+            for (e, label) in self.error_labels.iter().enumerate() {
+                m.effects[e] = stored.and_then(|s| s.get(label)).copied();
+            }
+        }
     }
 }

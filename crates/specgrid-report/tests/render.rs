@@ -11,9 +11,12 @@ use std::path::PathBuf;
 use specgrid_report::Report;
 
 fn golden(name: &str, actual: &str) {
-    let path = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/golden")
-        .join(name);
+    let path = PathBuf::from(
+        std::env::var("CARGO_MANIFEST_DIR")
+            .unwrap_or_else(|_| env!("CARGO_MANIFEST_DIR").to_string()),
+    )
+    .join("tests/golden")
+    .join(name);
     if std::env::var_os("SPECGRID_UPDATE_GOLDEN").is_some() {
         std::fs::write(&path, actual).unwrap();
         return;

@@ -256,11 +256,75 @@ pub struct PlannedModel {
     pub intercept: bool,
 }
 
+/// The common scale on which the report puts every model's tracked effect, so that models
+/// with a log outcome and models with a level outcome can share one curve.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum EffectScale {
+    /// The raw coefficient of the first focus term (comparable only across models that share
+    /// outcome and focus forms).
+    #[default]
+    Coefficient,
+    /// Per-cent change of the outcome per per-cent change of the focus.
+    Elasticity,
+    /// Proportional change of the outcome per unit of the focus.
+    SemiElasticity,
+    /// Change of the outcome, in outcome units, per unit of the focus.
+    MarginalEffect,
+}
+
+impl EffectScale {
+    /// Every scale with the word the study file uses for it.
+    pub const WORDS: [(&'static str, EffectScale); 4] = [
+        ("coefficient", EffectScale::Coefficient),
+        ("elasticity", EffectScale::Elasticity),
+        ("semi-elasticity", EffectScale::SemiElasticity),
+        ("marginal effect", EffectScale::MarginalEffect),
+    ];
+
+    /// The word the study file uses.
+    pub fn word(self) -> &'static str {
+        Self::WORDS
+            .iter()
+            .find(|(_, s)| *s == self)
+            .map(|(w, _)| *w)
+            .unwrap_or("coefficient")
+    }
+}
+
+/// Values, in raw units, at which effects are evaluated; each one left out means "the mean
+/// over the model's rows".
+#[derive(Debug, Clone, Copy, PartialEq, Default, serde::Serialize)]
+pub struct EvaluationValues {
+    /// Focus value.
+    pub focus: Option<f64>,
+    /// Outcome value.
+    pub outcome: Option<f64>,
+    /// Value of the moderator in an interaction with the focus.
+    pub moderator: Option<f64>,
+}
+
+/// What the study's `[report]` table asks of the report.
+#[derive(Debug, Clone, PartialEq, Default, serde::Serialize)]
+pub struct ReportSettings {
+    /// Scale of the tracked effect.
+    pub scale: EffectScale,
+    /// Where effects are evaluated.
+    pub evaluate_at: EvaluationValues,
+    /// The baseline model as an option index per dimension (parallel to
+    /// [`Plan::dimensions`]), when the study names one; otherwise the first option everywhere.
+    pub baseline: Option<Vec<usize>>,
+}
+
 /// The expanded grid.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Plan {
     /// Study title.
     pub title: String,
+    /// The focus (tracked regressor) source column.
+    pub focus_column: String,
+    /// Report settings from the study's `[report]` table.
+    pub report: ReportSettings,
     /// Data file, resolved against the study file's folder.
     pub data_path: PathBuf,
     /// Seed used for sampling the grid and anything random downstream.
@@ -287,8 +351,8 @@ pub struct Plan {
     pub size_after_exclusions: u128,
     /// Number of models drawn at random, when the study asked for a random sample of the grid.
     pub random_sample: Option<u64>,
-    /// Index into `models` of the baseline model (the first option on every dimension), if it
-    /// was planned (it may be skipped or not drawn).
+    /// Index into `models` of the baseline model (the one the study names in `[report]`, else
+    /// the first option on every dimension), if it was planned (it may not be drawn).
     pub baseline: Option<usize>,
     /// Number of distinct least-squares factorisations the models need: models of one sample
     /// with the same term set share one (under per-model rows, also the same outcome

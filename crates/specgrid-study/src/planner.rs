@@ -178,6 +178,8 @@ fn build(
     }
     let mut plan = Plan {
         title: study.title.clone(),
+        focus_column: study.focus.column.clone(),
+        report: study.report.clone(),
         data_path: study.data_path.clone(),
         seed: study.seed,
         dimensions: layout.dimensions.clone(),
@@ -201,10 +203,20 @@ fn build(
     if !duplicates.is_empty() {
         return Err(duplicate_problems(study, &plan, &duplicates));
     }
-    plan.baseline = plan
-        .models
-        .iter()
-        .position(|m| m.choices.iter().all(|&c| c == 0));
+    plan.baseline = match &study.report.baseline {
+        Some(named) => plan.models.iter().position(|m| &m.choices == named),
+        None => plan
+            .models
+            .iter()
+            .position(|m| m.choices.iter().all(|&c| c == 0)),
+    };
+    if plan.baseline.is_none() && plan.random_sample.is_none() && study.report.baseline.is_some() {
+        return Err(vec![study.source.problem(
+            study.spots.grid,
+            "the baseline named in [report] is excluded by a skip rule of [grid]",
+            Some("name a baseline the grid contains, or narrow the skip rule".into()),
+        )]);
+    }
     plan.factorisations = count_factorisations(&plan);
     Ok(plan)
 }

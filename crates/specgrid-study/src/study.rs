@@ -3,7 +3,7 @@
 
 use std::path::PathBuf;
 
-use crate::plan::{ErrorChoice, OutcomeForm, RowPolicy, Sample, Term};
+use crate::plan::{ErrorChoice, OutcomeForm, ReportSettings, RowPolicy, Sample, Term};
 use crate::problem::Source;
 use crate::verdict::Verdict;
 
@@ -40,6 +40,8 @@ pub struct Study {
     pub grid: GridSettings,
     /// When the finding holds, for unattended reruns (`[verdict]`); `None` when absent.
     pub verdict: Option<Verdict>,
+    /// What the report shows (effect scale, evaluation values, baseline).
+    pub report: ReportSettings,
     /// The file text, to place problems found while planning.
     pub(crate) source: Source,
     /// Byte offsets of a few places that planning problems point at.

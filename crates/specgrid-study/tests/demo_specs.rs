@@ -1,13 +1,16 @@
 //! The shipped study files load, plan to the documented sizes, and match the documentation.
 
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 use specgrid_study::{load_study, plan, Condition, ErrorChoice, RowPolicy, Term, Transform};
 
 fn repo(path: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("../..")
-        .join(path)
+    PathBuf::from(
+        std::env::var("CARGO_MANIFEST_DIR")
+            .unwrap_or_else(|_| env!("CARGO_MANIFEST_DIR").to_string()),
+    )
+    .join("../..")
+    .join(path)
 }
 
 #[test]

@@ -3,6 +3,7 @@
 mod cli;
 mod commands;
 mod data_guard;
+mod effects;
 mod exit;
 mod interrupt;
 mod manifest;

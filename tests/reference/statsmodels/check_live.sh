@@ -19,3 +19,14 @@ trap 'rm -rf "$live"' EXIT
 
 "$venv/bin/python" "$here/make_fixtures.py" --out "$live"
 "$venv/bin/python" "$here/compare.py" "$here/fixtures" "$live" --rtol 1e-10
+
+# The effects fixture: the data set must come out byte for byte, the expected effects to 1e-10.
+mkdir -p "$live/effects"
+"$venv/bin/python" "$here/make_effect_fixtures.py" --out "$live/effects"
+cmp "$here/effects/data.csv" "$live/effects/data.csv"
+"$venv/bin/python" "$here/compare.py" "$here/effects" "$live/effects" --rtol 1e-10
+
+# The inference fixtures (wild cluster bootstrap enumeration, Gelbach, Oster inputs).
+mkdir -p "$live/inference"
+"$venv/bin/python" "$here/../inference/make_fixtures.py" --out "$live/inference"
+"$venv/bin/python" "$here/compare.py" "$here/../inference/fixtures" "$live/inference" --rtol 1e-10

@@ -71,6 +71,8 @@ pub fn plan(
 ) -> Plan {
     Plan {
         title: "orchard test".into(),
+        focus_column: String::new(),
+        report: Default::default(),
         data_path: path.to_path_buf(),
         seed: 1,
         dimensions: vec![Dimension {

@@ -7,7 +7,7 @@ use toml::de::DeTable;
 
 use super::forms::{read_form, read_terms, Form, FormKind};
 use super::values::{Reader, Val};
-use super::{samples, settings, verdict};
+use super::{report, samples, settings, verdict};
 use crate::plan::{OutcomeForm, RowPolicy, Term, Transform};
 use crate::problem::suggestion;
 use crate::study::{
@@ -40,6 +40,7 @@ pub(crate) fn read_study(r: &mut Reader<'_>, doc: &DeTable<'_>) -> Option<Study>
         doc.get("verdict"),
         errors.as_ref().map(|e| e.0.as_slice()),
     );
+    let report = report::read_report(r, doc.get("report"));
 
     let header = settings?;
     let (grid, skips, spots) = grid?;
@@ -60,6 +61,7 @@ pub(crate) fn read_study(r: &mut Reader<'_>, doc: &DeTable<'_>) -> Option<Study>
         significance_level,
         grid,
         verdict: verdict?,
+        report: Default::default(),
         source: r.source().clone(),
         spots: Spots { ..spots },
     };
@@ -75,6 +77,7 @@ pub(crate) fn read_study(r: &mut Reader<'_>, doc: &DeTable<'_>) -> Option<Study>
         return None;
     }
     study.grid.skip = settings::check_skips(r, &study, skips)?;
+    study.report = report::check_report(r, &study, report?)?;
     Some(study)
 }
 

@@ -7,7 +7,9 @@ use std::path::Path;
 
 use polars::prelude::*;
 use serde::{Deserialize, Serialize};
-use specgrid_report::{DimensionInfo, Report, ReportHeader, ReportInput, ResultRow};
+use specgrid_report::{
+    DimensionInfo, Report, ReportHeader, ReportInput, ResultRow, Scale, StoredEffects,
+};
 
 use crate::exit::Failure;
 use crate::results::FIXED_COLUMNS;
@@ -27,7 +29,31 @@ pub struct RunRecord {
     pub data_fingerprint: String,
     /// Decision dimensions with their options, in study order.
     pub dimensions: Vec<(String, Vec<String>)>,
+    /// The effect scale the study asked for (`[report] scale`); effects on any scale other than
+    /// `coefficient` are re-read from `effects.csv` when re-rendering.
+    #[serde(default = "coefficient_word")]
+    pub scale: String,
+    /// What the effect is of (the focus column), shown in the report.
+    #[serde(default)]
+    pub effect_label: String,
 }
+
+fn coefficient_word() -> String {
+    "coefficient".into()
+}
+
+/// What a report needs beyond the rows of `models.csv`.
+#[derive(Debug, Default)]
+pub struct Extras {
+    /// Effects on the study's scale (model id → covariance label → effect); `None` keeps the
+    /// coefficient of each model's first tracked term.
+    pub effects: Option<StoredEffects>,
+    /// (fitted, residual) pairs of the baseline model.
+    pub baseline_residuals: Option<Vec<(f64, f64)>>,
+}
+
+/// Name of the file holding the baseline model's (fitted, residual) pairs.
+pub const RESIDUALS_FILE: &str = "baseline_residuals.csv";
 
 /// Builds the report from result rows, writes its files into `dir` and returns the terminal
 /// summary.
@@ -35,17 +61,23 @@ pub fn render(
     record: &RunRecord,
     study_text: String,
     rows: &[ResultRow],
+    extras: Extras,
     dir: &Path,
 ) -> Result<String, Failure> {
-    let report = build(record, study_text, rows)?;
+    let report = build(record, study_text, rows, extras)?;
     report
         .write_all(dir)
         .map_err(|e| Failure::Output(e.to_string()))?;
     Ok(report.terminal())
 }
 
-/// Builds the report from result rows.
-fn build(record: &RunRecord, study_text: String, rows: &[ResultRow]) -> Result<Report, Failure> {
+/// Builds the report from result rows and the extras.
+fn build(
+    record: &RunRecord,
+    study_text: String,
+    rows: &[ResultRow],
+    extras: Extras,
+) -> Result<Report, Failure> {
     let header = ReportHeader {
         title: record.title.clone(),
         significance_level: record.significance_level,
@@ -62,26 +94,37 @@ fn build(record: &RunRecord, study_text: String, rows: &[ResultRow]) -> Result<R
             options: options.clone(),
         })
         .collect();
-    let input = ReportInput::from_rows(header, dimensions, rows)
+    let mut input = ReportInput::from_rows(header, dimensions, rows)
         .map_err(|e| Failure::Output(format!("cannot build the report: {e}")))?;
+    if let Some(effects) = &extras.effects {
+        let scale = Scale::parse(&record.scale).ok_or_else(|| {
+            Failure::Data(format!(
+                "run.json names the effect scale `{}`, which this version does not know",
+                record.scale
+            ))
+        })?;
+        input.set_effects(scale, record.effect_label.clone(), effects);
+    }
+    input.baseline_residuals = extras.baseline_residuals;
     Report::build(input).map_err(|e| Failure::Output(format!("cannot build the report: {e}")))
 }
 
 /// `specgrid report DIR`: re-render the report files of a results folder in place.
 pub fn run(dir: &Path) -> Result<(), Failure> {
-    let (record, study_text, rows) = read_folder(dir)?;
-    print!("{}", render(&record, study_text, &rows, dir)?);
+    let (record, study_text, rows, extras) = read_folder(dir)?;
+    print!("{}", render(&record, study_text, &rows, extras, dir)?);
     Ok(())
 }
 
 /// The report of a results folder, rebuilt from its files (for comparing two runs).
 pub(crate) fn load(dir: &Path) -> Result<Report, Failure> {
-    let (record, study_text, rows) = read_folder(dir)?;
-    build(&record, study_text, &rows)
+    let (record, study_text, rows, extras) = read_folder(dir)?;
+    build(&record, study_text, &rows, extras)
 }
 
-/// What re-rendering needs from a results folder: `run.json`, `study.toml`, `models.parquet`.
-fn read_folder(dir: &Path) -> Result<(RunRecord, String, Vec<ResultRow>), Failure> {
+/// What re-rendering needs from a results folder: `run.json`, `study.toml`, `models.parquet`,
+/// and `effects.csv` and the baseline residuals when the run wrote them.
+fn read_folder(dir: &Path) -> Result<(RunRecord, String, Vec<ResultRow>, Extras), Failure> {
     let record_path = dir.join("run.json");
     let record: RunRecord =
         serde_json::from_str(&fs::read_to_string(&record_path).map_err(|e| {
@@ -94,7 +137,57 @@ fn read_folder(dir: &Path) -> Result<(RunRecord, String, Vec<ResultRow>), Failur
         .map_err(|e| Failure::Data(format!("{}: {e}", record_path.display())))?;
     let study_text = fs::read_to_string(dir.join("study.toml")).unwrap_or_default();
     let rows = read_rows(&dir.join("models.parquet"), &record)?;
-    Ok((record, study_text, rows))
+    let effects = if record.scale == coefficient_word() {
+        None
+    } else {
+        let path = dir.join("effects.csv");
+        let text = fs::read_to_string(&path).map_err(|e| {
+            Failure::Data(format!(
+                "{}: {e}; the run used the `{}` scale, whose effects live in this file; re-run the study",
+                path.display(),
+                record.scale
+            ))
+        })?;
+        Some(
+            specgrid_report::parse_effects_csv(&text)
+                .map_err(|e| Failure::Data(format!("{}: {e}", path.display())))?,
+        )
+    };
+    let extras = Extras {
+        effects,
+        baseline_residuals: read_residuals(&dir.join(RESIDUALS_FILE))?,
+    };
+    Ok((record, study_text, rows, extras))
+}
+
+/// Writes the baseline model's (fitted, residual) pairs, shortest round-trip decimals.
+pub fn write_residuals(path: &Path, pairs: &[(f64, f64)]) -> Result<(), Failure> {
+    let mut text = String::from("fitted,residual\n");
+    for (f, r) in pairs {
+        text.push_str(&format!("{f:?},{r:?}\n"));
+    }
+    fs::write(path, text).map_err(|e| Failure::Output(format!("{}: {e}", path.display())))
+}
+
+/// Reads the pairs back; a folder without the file (e.g. the baseline failed) has none.
+fn read_residuals(path: &Path) -> Result<Option<Vec<(f64, f64)>>, Failure> {
+    let Ok(text) = fs::read_to_string(path) else {
+        return Ok(None);
+    };
+    let bad = |line: usize| {
+        Failure::Data(format!(
+            "{} line {line}: expected two numbers `fitted,residual`; the file is damaged, re-run the study",
+            path.display()
+        ))
+    };
+    let mut pairs = Vec::new();
+    for (i, line) in text.lines().enumerate().skip(1) {
+        let (f, r) = line.split_once(',').ok_or_else(|| bad(i + 1))?;
+        let f: f64 = f.parse().map_err(|_| bad(i + 1))?;
+        let r: f64 = r.parse().map_err(|_| bad(i + 1))?;
+        pairs.push((f, r));
+    }
+    Ok(Some(pairs))
 }
 
 /// Reads `models.parquet` back into report rows.

@@ -4,13 +4,15 @@ use std::path::PathBuf;
 use std::time::Instant;
 
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
-use specgrid_data::{Assembly, SampleDesign};
+use specgrid_data::{Assembly, LoadedData, SampleDesign};
 use specgrid_ols::{Covariance, FitOptions, ModelError, ModelFit, SharedFactor};
+use specgrid_report::{Scale, StoredEffects};
 
 use specgrid_study::Plan;
 
 use super::report::{self, RunRecord};
 use super::rerun::{self, Inputs, RerunOptions};
+use crate::effects::{self, EvaluationCache, Recipe};
 use crate::exit::Failure;
 use crate::output::Staging;
 use crate::results::{write_csv, write_parquet, ModelStats, ResultsTable, TermValues};
@@ -33,6 +35,7 @@ pub struct RunOptions {
 
 /// One model's outcome: where it was fitted and what came back.
 struct Estimated<'a> {
+    design_index: usize,
     design: &'a SampleDesign,
     fit: Result<ModelFit, ModelError>,
 }
@@ -53,6 +56,11 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
     if let Some(skipped) = rerun::skip_unchanged(&options.out, &inputs, options.rerun.force) {
         return skipped;
     }
+    let scale = effects::report_scale(plan.report.scale);
+    // Decided from the plan alone, so a study whose effects cannot be converted fails at once.
+    let recipes = (scale != Scale::Coefficient)
+        .then(|| effects::recipes(&plan))
+        .transpose()?;
     let dimension_names: Vec<String> = plan.dimensions.iter().map(|d| d.name.clone()).collect();
     let mut models = ResultsTable::new(&dimension_names)?;
     let (data, assembly) = crate::data_guard::load_and_assemble(&plan)?;
@@ -74,6 +82,13 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
             append_model(&plan, index, result, terms, None);
         }
     }
+    let converted = recipes
+        .map(|r| convert_effects(&plan, &data, &estimated, &r, scale))
+        .transpose()?;
+    let residuals = baseline_residuals(&plan, &estimated);
+    if let Some(pairs) = &residuals {
+        report::write_residuals(&staging.file(report::RESIDUALS_FILE), pairs)?;
+    }
     let mut frame = models.to_frame()?;
     write_csv(&mut frame, &staging.file("models.csv"))?;
     write_parquet(&mut frame, &staging.file("models.parquet"))?;
@@ -84,19 +99,41 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         title: plan.title.clone(),
         significance_level: plan.significance_level,
         confidence_level: plan.confidence_level,
-        baseline_model_id: plan.baseline.map(|i| plan.models[i].id.clone()),
+        // Only a baseline the study named; otherwise the report takes the first options.
+        baseline_model_id: plan
+            .report
+            .baseline
+            .as_ref()
+            .and(plan.baseline)
+            .map(|i| plan.models[i].id.clone()),
         data_fingerprint: inputs.data_sha256.clone(),
         dimensions: plan
             .dimensions
             .iter()
             .map(|d| (d.name.clone(), d.options.clone()))
             .collect(),
+        scale: plan.report.scale.word().to_string(),
+        effect_label: if converted.is_some() {
+            plan.focus_column.clone()
+        } else {
+            String::new()
+        },
     };
     write_text(&staging.file("study.toml"), &study_text)?;
     let record_json = serde_json::to_string_pretty(&record)
         .map_err(|e| Failure::Output(format!("run.json: {e}")))?;
     write_text(&staging.file("run.json"), &record_json)?;
-    let terminal = report::render(&record, study_text, &models.report_rows(), staging.dir())?;
+    let extras = report::Extras {
+        effects: converted,
+        baseline_residuals: residuals,
+    };
+    let terminal = report::render(
+        &record,
+        study_text,
+        &models.report_rows(),
+        extras,
+        staging.dir(),
+    )?;
     let (rerun_text, verdict) = rerun::compare_and_judge(&staging, &study, &options.rerun)?;
     rerun::write_manifest(&staging, &plan, &assembly, data.n_rows, &inputs)?;
     rerun::pause_for_tests();
@@ -116,6 +153,77 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         Some(failure) => Err(failure),
         None => Ok(()),
     }
+}
+
+/// Every model's effect on the study's scale, keyed for the report; conversions undefined at
+/// the evaluation point are counted and shown as one warning.
+fn convert_effects(
+    plan: &Plan,
+    data: &LoadedData,
+    estimated: &[Estimated<'_>],
+    recipes: &[Recipe],
+    scale: Scale,
+) -> Result<StoredEffects, Failure> {
+    let labels: Vec<String> = plan.errors.iter().map(|e| e.label()).collect();
+    let mut cache = EvaluationCache::default();
+    let mut problems = Vec::new();
+    let mut stored = StoredEffects::new();
+    for (i, result) in estimated.iter().enumerate() {
+        let Ok(fit) = &result.fit else { continue };
+        let model = &plan.models[i];
+        let point = cache.point(
+            plan,
+            data,
+            result.design_index,
+            result.design,
+            model,
+            &recipes[i],
+        )?;
+        let values =
+            effects::model_effects(&recipes[i], result.design, fit, point, scale, &mut problems);
+        let entry = stored.entry(model.id.clone()).or_default();
+        for (label, value) in labels.iter().zip(values) {
+            if let Some(v) = value {
+                entry.insert(label.clone(), v);
+            }
+        }
+    }
+    if let Some(first) = problems.first() {
+        eprintln!(
+            "warning: {} effect(s) could not be put on the `{}` scale and are left empty, e.g.: {first}",
+            problems.len(),
+            scale.label()
+        );
+    }
+    Ok(stored)
+}
+
+/// Most points kept for the baseline's residual plot (the plot draws at most this many).
+const RESIDUAL_POINTS: usize = 4000;
+
+/// (fitted, residual) of the baseline model over its rows, every k-th row so at most
+/// [`RESIDUAL_POINTS`] remain; `None` when there is no baseline or it failed.
+fn baseline_residuals(plan: &Plan, estimated: &[Estimated<'_>]) -> Option<Vec<(f64, f64)>> {
+    let b = plan.baseline?;
+    let result = &estimated[b];
+    let fit = result.fit.as_ref().ok()?;
+    let design = &result.design.design;
+    let outcome = result.design.outcome_columns[plan.models[b].outcome]?;
+    let n = design.x.nrows();
+    let step = n.div_ceil(RESIDUAL_POINTS).max(1);
+    Some(
+        (0..n)
+            .step_by(step)
+            .map(|i| {
+                let fitted: f64 = fit
+                    .all_estimates
+                    .iter()
+                    .map(|&(c, b)| design.x[(i, c)] * b)
+                    .sum();
+                (fitted, design.y[(i, outcome)] - fitted)
+            })
+            .collect(),
+    )
 }
 
 fn write_text(path: &std::path::Path, text: &str) -> Result<(), Failure> {
@@ -152,7 +260,7 @@ fn estimate<'a>(
 ) -> Result<Vec<Estimated<'a>>, Failure> {
     let progress = progress_bar(plan.models.len() as u64, options.quiet);
     let mut slots: Vec<Option<Estimated<'a>>> = (0..plan.models.len()).map(|_| None).collect();
-    for design in &assembly.designs {
+    for (design_index, design) in assembly.designs.iter().enumerate() {
         progress.set_message(format!("sample `{}`", design.sample_name));
         let factor = SharedFactor::new(&design.design)
             .map_err(|e| Failure::Estimation(format!("sample `{}`: {e}", design.sample_name)))?;
@@ -172,7 +280,11 @@ fn estimate<'a>(
             .collect::<Result<Vec<_>, Failure>>()?;
         let fits = factor.fit_many_with_progress(&specs, fit_options, &|n| progress.inc(n as u64));
         for (&m, fit) in design.models.iter().zip(fits) {
-            slots[m] = Some(Estimated { design, fit });
+            slots[m] = Some(Estimated {
+                design_index,
+                design,
+                fit,
+            });
         }
     }
     progress.finish_and_clear();

@@ -9,7 +9,11 @@ use polars::prelude::*;
 
 /// The repository root (two levels above this crate).
 pub fn repo_root() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("../..")
+    PathBuf::from(
+        std::env::var("CARGO_MANIFEST_DIR")
+            .unwrap_or_else(|_| env!("CARGO_MANIFEST_DIR").to_string()),
+    )
+    .join("../..")
 }
 
 /// Runs the `specgrid` binary with `args` from `cwd` and returns its output.
