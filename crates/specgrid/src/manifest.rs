@@ -55,6 +55,10 @@ pub struct Manifest {
     pub finished: String,
     /// The command line, one argument per entry.
     pub command_line: Vec<String>,
+    /// SHA-256 of every other file of the folder, by name (sorted), so a damaged or edited
+    /// folder is never taken for an up-to-date one.
+    #[serde(default)]
+    pub files: std::collections::BTreeMap<String, String>,
 }
 
 impl Manifest {
@@ -63,6 +67,16 @@ impl Manifest {
     pub fn read(dir: &Path) -> Option<Manifest> {
         let text = std::fs::read_to_string(dir.join(MANIFEST_FILE)).ok()?;
         serde_json::from_str(&text).ok()
+    }
+
+    /// The first file of `dir` that is missing or differs from its recorded hash, if any.
+    pub fn first_changed_file(&self, dir: &Path) -> Option<String> {
+        self.files
+            .iter()
+            .find(|(name, hash)| {
+                std::fs::read(dir.join(name.as_str())).map_or(true, |b| sha256_hex(&b) != **hash)
+            })
+            .map(|(name, _)| name.clone())
     }
 
     /// Pretty JSON ending in a newline.
@@ -84,4 +98,27 @@ pub fn sha256_hex(bytes: &[u8]) -> String {
 /// The current time, UTC, RFC 3339 with seconds.
 pub fn now_text() -> String {
     humantime::format_rfc3339_seconds(std::time::SystemTime::now()).to_string()
+}
+
+/// Files `specgrid compare` may write into a folder after its run; they are not hashed.
+const WRITTEN_BY_COMPARE: [&str; 3] = ["comparison.json", "comparison.html", "verdict.json"];
+
+/// SHA-256 of every file directly in `dir` except the manifest and the files `compare` may
+/// rewrite, by name.
+pub fn hash_files(dir: &Path) -> Result<std::collections::BTreeMap<String, String>, Failure> {
+    let fail = |e: std::io::Error| Failure::Output(format!("{}: {e}", dir.display()));
+    let mut files = std::collections::BTreeMap::new();
+    for entry in std::fs::read_dir(dir).map_err(fail)? {
+        let entry = entry.map_err(fail)?;
+        let name = entry.file_name().to_string_lossy().into_owned();
+        if name == MANIFEST_FILE
+            || WRITTEN_BY_COMPARE.contains(&name.as_str())
+            || !entry.path().is_file()
+        {
+            continue;
+        }
+        let bytes = std::fs::read(entry.path()).map_err(fail)?;
+        files.insert(name, sha256_hex(&bytes));
+    }
+    Ok(files)
 }

@@ -168,6 +168,13 @@ fn a_rerun_on_unchanged_inputs_is_skipped_unless_forced() {
         "folder untouched"
     );
 
+    // A damaged folder is never taken for an up-to-date one.
+    fs::remove_file(out.join("summary.json")).unwrap();
+    let repaired = run(&study, &out, &[]);
+    assert!(repaired.status.success(), "{}", text(&repaired));
+    assert!(text(&repaired).contains("summary.json is missing or changed"));
+    assert!(out.join("summary.json").exists());
+
     let forced = run(&study, &out, &["--force", "--threads", "1"]);
     assert!(forced.status.success(), "{}", text(&forced));
     assert!(!String::from_utf8_lossy(&forced.stdout).contains("skipped"));

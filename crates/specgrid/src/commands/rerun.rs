@@ -9,7 +9,9 @@ use specgrid_study::{Plan, Study};
 
 use super::compare;
 use crate::exit::Failure;
-use crate::manifest::{now_text, sha256_hex, Manifest, SampleRows, MANIFEST_FILE, MANIFEST_FORMAT};
+use crate::manifest::{
+    hash_files, now_text, sha256_hex, Manifest, SampleRows, MANIFEST_FILE, MANIFEST_FORMAT,
+};
 use crate::output::Staging;
 use crate::verdict::{Outcome, VERDICT_FILE};
 
@@ -58,6 +60,13 @@ pub fn skip_unchanged(out: &Path, inputs: &Inputs, force: bool) -> Option<Result
     }
     let previous = Manifest::read(out)?;
     if previous.study_sha256 != inputs.study_sha256 || previous.data_sha256 != inputs.data_sha256 {
+        return None;
+    }
+    if let Some(name) = previous.first_changed_file(out) {
+        eprintln!(
+            "note: {} is missing or changed since that run; estimating again",
+            out.join(name).display()
+        );
         return None;
     }
     println!(
@@ -145,6 +154,7 @@ pub fn write_manifest(
         started: inputs.started.clone(),
         finished: now_text(),
         command_line: std::env::args().collect(),
+        files: hash_files(staging.dir())?,
     };
     let path = staging.file(MANIFEST_FILE);
     std::fs::write(&path, manifest.to_json()?)
