@@ -27,6 +27,8 @@
 #![warn(missing_docs)]
 
 mod aggregate;
+mod comparison;
+mod comparison_html;
 mod curve;
 mod effect;
 mod effects_csv;
@@ -44,6 +46,13 @@ mod text;
 use std::path::Path;
 
 pub use aggregate::{baseline_index, significance, summarize, CAUTIONS, SUMMARY_FORMAT};
+pub use comparison::{
+    compare, AggregateChange, Comparison, ModelChange, Tolerance, COMPARISON_FORMAT,
+};
+pub use comparison_html::{
+    insert_section as insert_comparison_section, render_page as comparison_page,
+    render_section as comparison_section, render_terminal as comparison_terminal, VerdictLine,
+};
 pub use effect::{
     effect, Derived, Effect, EffectError, EffectInputs, EvaluationPoint, FocusForm, OutcomeForm,
     Scale,

@@ -12,6 +12,7 @@ mod planner;
 mod problem;
 mod read;
 mod study;
+mod verdict;
 
 pub use plan::*;
 pub use planner::{count_grid, plan, GridCount};
@@ -21,3 +22,4 @@ pub use study::{
     ControlBlock, ControlRole, FocusChoices, GridMode, GridSettings, NamedTerms, OutcomeChoices,
     SkipRule, Study, DEFAULT_LIMIT,
 };
+pub use verdict::{Verdict, VERDICT_KEYS};

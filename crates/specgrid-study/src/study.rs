@@ -5,6 +5,7 @@ use std::path::PathBuf;
 
 use crate::plan::{ErrorChoice, OutcomeForm, ReportSettings, RowPolicy, Sample, Term};
 use crate::problem::Source;
+use crate::verdict::Verdict;
 
 /// A validated study file.
 #[derive(Debug, Clone, PartialEq)]
@@ -37,6 +38,8 @@ pub struct Study {
     pub significance_level: f64,
     /// How the grid is built.
     pub grid: GridSettings,
+    /// When the finding holds, for unattended reruns (`[verdict]`); `None` when absent.
+    pub verdict: Option<Verdict>,
     /// What the report shows (effect scale, evaluation values, baseline).
     pub report: ReportSettings,
     /// The file text, to place problems found while planning.

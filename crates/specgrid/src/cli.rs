@@ -46,6 +46,33 @@ pub enum Command {
         /// Hide the progress bar.
         #[arg(long)]
         quiet: bool,
+        /// Estimate even when the results folder already holds a run of the same data and study.
+        #[arg(long)]
+        force: bool,
+        /// Compare with this earlier results folder (it may be --out itself: the comparison is
+        /// made before the folder is replaced) and judge the `[verdict]` flip rule.
+        #[arg(long, value_name = "OLD_DIR")]
+        against: Option<PathBuf>,
+        #[command(flatten)]
+        tolerance: ToleranceArgs,
+        /// Refuse the run up front if its results would need more memory than this (MiB;
+        /// default: half the memory the system reports available).
+        #[arg(long, value_name = "MIB")]
+        max_memory: Option<u64>,
+    },
+    /// Compare two results folders of the same study: models added and removed, sign flips,
+    /// changes of significance, moved estimates, every aggregate; judge the `[verdict]`.
+    Compare {
+        /// The earlier results folder.
+        old: PathBuf,
+        /// The newer results folder; comparison.json, comparison.html and verdict.json are
+        /// written into it.
+        new: PathBuf,
+        /// Covariance choice to judge under (default: the verdict's, else the first).
+        #[arg(long)]
+        errors: Option<String>,
+        #[command(flatten)]
+        tolerance: ToleranceArgs,
     },
     /// Re-render the report files of a results folder without re-estimating.
     Report {
@@ -70,4 +97,15 @@ pub enum Command {
         #[arg(long)]
         out: PathBuf,
     },
+}
+
+/// When an estimate counts as moved between two runs: both tolerances must be exceeded.
+#[derive(Debug, Clone, Copy, clap::Args)]
+pub struct ToleranceArgs {
+    /// Relative change |new − old| / |old| above which an estimate may count as moved.
+    #[arg(long, default_value_t = 0.10, value_name = "SHARE")]
+    pub relative_tolerance: f64,
+    /// Change in units of the earlier standard error above which an estimate may count as moved.
+    #[arg(long, default_value_t = 0.5, value_name = "SES")]
+    pub se_tolerance: f64,
 }

@@ -4,6 +4,9 @@
 use std::fmt;
 use std::process::ExitCode;
 
+/// Exit code when the `[verdict]` rules fail (docs/cli.md, docs/nightly.md).
+pub const VERDICT_FAILED: u8 = 7;
+
 /// What went wrong, grouped by what the user has to fix.
 #[derive(Debug)]
 pub enum Failure {
@@ -16,6 +19,9 @@ pub enum Failure {
     Estimation(String),
     /// Results could not be written.
     Output(String),
+    /// Everything ran, but the study's `[verdict]` rules fail: the finding does not hold.
+    /// Distinct from every error so a scheduler can alert on it.
+    Verdict(String),
 }
 
 impl Failure {
@@ -26,6 +32,7 @@ impl Failure {
             Failure::Data(_) => 4,
             Failure::Estimation(_) => 5,
             Failure::Output(_) => 6,
+            Failure::Verdict(_) => VERDICT_FAILED,
         }
     }
 
@@ -42,6 +49,7 @@ impl fmt::Display for Failure {
             Failure::Data(m) => write!(f, "data problem: {m}"),
             Failure::Estimation(m) => write!(f, "estimation failed: {m}"),
             Failure::Output(m) => write!(f, "cannot write results: {m}"),
+            Failure::Verdict(m) => write!(f, "the finding does not hold: {m}"),
         }
     }
 }

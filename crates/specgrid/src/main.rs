@@ -2,10 +2,15 @@
 
 mod cli;
 mod commands;
+mod data_guard;
 mod effects;
 mod exit;
+mod interrupt;
+mod manifest;
+mod memory;
 mod output;
 mod results;
+mod verdict;
 
 use std::process::ExitCode;
 
@@ -13,6 +18,8 @@ use clap::Parser;
 
 fn main() -> ExitCode {
     let cli = cli::Cli::parse();
+    interrupt::install();
+    data_guard::install_panic_hook();
     match commands::dispatch(cli.command) {
         Ok(()) => ExitCode::SUCCESS,
         Err(failure) => {

@@ -7,7 +7,7 @@ use std::collections::{BTreeMap, BTreeSet};
 use std::fs;
 use std::path::Path;
 
-use common::{floats, read_parquet, repo_root, specgrid, strings, text};
+use common::{floats, read_parquet, repo_root, run_study, specgrid, strings, text};
 
 /// A small deterministic data set: 60 rows, a numeric focus, two controls, a 3-level category
 /// and a cluster column. Values come from fixed formulas, not from a random generator.
@@ -164,18 +164,6 @@ fn model_ids_are_stable_across_runs_and_block_order() {
     let other = dir.path().join("swapped.toml");
     fs::write(&other, swapped).unwrap();
     assert_eq!(model_ids(&plan_output(&other, &["--list"])), first);
-}
-
-fn run_study(study: &Path, out: &Path, extra: &[&str]) -> std::process::Output {
-    let mut args = vec![
-        "run",
-        study.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ];
-    args.extend_from_slice(extra);
-    specgrid(&args, study.parent().unwrap())
 }
 
 #[test]

@@ -26,6 +26,7 @@ fn study_text(data: &Path, scale: &str) -> String {
         r#"[study]
 title = "effects reference"
 data = "{}"
+allow_data_outside_folder = true
 seed = 1
 
 [outcome]

@@ -25,7 +25,7 @@ fn run_set(set: &str, focus: &str, always: &[&str], dir: &Path) -> polars::prelu
         )
     };
     let study = format!(
-        "[study]\ntitle = \"NIST {set}\"\ndata = \"{}\"\n\n[outcome]\ncolumn = \"y\"\n\n[focus]\ncolumn = \"x{}\"\nforms = [{focus}]\n\n{controls}\n[errors]\nchoices = [\"classical\"]\n",
+        "[study]\ntitle = \"NIST {set}\"\ndata = \"{}\"\nallow_data_outside_folder = true\n\n[outcome]\ncolumn = \"y\"\n\n[focus]\ncolumn = \"x{}\"\nforms = [{focus}]\n\n{controls}\n[errors]\nchoices = [\"classical\"]\n",
         data.display(),
         if always.is_empty() { "" } else { "1" },
     );

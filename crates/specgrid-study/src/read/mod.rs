@@ -6,6 +6,7 @@ mod samples;
 mod sections;
 mod settings;
 mod values;
+mod verdict;
 
 use std::path::Path;
 
@@ -18,7 +19,7 @@ pub(crate) use values::Reader;
 
 /// Top-level tables a study file may have.
 const TOP_LEVEL: &[&str] = &[
-    "study", "outcome", "focus", "controls", "samples", "errors", "grid", "report",
+    "study", "outcome", "focus", "controls", "samples", "errors", "grid", "report", "verdict",
 ];
 
 /// Read and check a study file. Returns every problem found, sorted by position, rather than

@@ -7,7 +7,7 @@ use toml::de::DeTable;
 
 use super::forms::{read_form, read_terms, Form, FormKind};
 use super::values::{Reader, Val};
-use super::{report, samples, settings};
+use super::{report, samples, settings, verdict};
 use crate::plan::{OutcomeForm, RowPolicy, Term, Transform};
 use crate::problem::suggestion;
 use crate::study::{
@@ -23,7 +23,7 @@ pub(crate) fn read_study(r: &mut Reader<'_>, doc: &DeTable<'_>) -> Option<Study>
         r,
         doc,
         "study",
-        &["title", "data", "seed", "rows", "intercept"],
+        &["title", "data", "seed", "rows", "intercept", ALLOW_OUTSIDE],
     );
     let outcome_t = section(r, doc, "outcome", &["column", "forms"]);
     let focus_t = section(r, doc, "focus", &["column", "forms", "also_track"]);
@@ -35,6 +35,11 @@ pub(crate) fn read_study(r: &mut Reader<'_>, doc: &DeTable<'_>) -> Option<Study>
     let samples = samples::read_samples(r, doc.get("samples"));
     let errors = settings::read_errors(r, doc.get("errors"));
     let grid = settings::read_grid(r, doc.get("grid"));
+    let verdict = verdict::read_verdict(
+        r,
+        doc.get("verdict"),
+        errors.as_ref().map(|e| e.0.as_slice()),
+    );
     let report = report::read_report(r, doc.get("report"));
 
     let header = settings?;
@@ -55,6 +60,7 @@ pub(crate) fn read_study(r: &mut Reader<'_>, doc: &DeTable<'_>) -> Option<Study>
         confidence_level,
         significance_level,
         grid,
+        verdict: verdict?,
         report: Default::default(),
         source: r.source().clone(),
         spots: Spots { ..spots },
@@ -107,9 +113,13 @@ fn read_header(r: &mut Reader<'_>, t: &DeTable<'_>, at: usize) -> Option<Header>
     let title = r
         .required(t, "title", at, "[study]")
         .and_then(|v| r.name(v, "`title` in [study]"));
+    let allow_outside = match t.get(ALLOW_OUTSIDE) {
+        Some(v) => r.boolean(v, &format!("`{ALLOW_OUTSIDE}` in [study]")),
+        None => Some(false),
+    };
     let data_path = r
         .required(t, "data", at, "[study]")
-        .and_then(|v| data_path(r, v));
+        .and_then(|v| data_path(r, v, allow_outside.unwrap_or(true)));
     let seed = match t.get("seed") {
         Some(v) => r
             .integer_in(v, "`seed` in [study]", 0, u64::MAX as i128)
@@ -144,9 +154,24 @@ fn read_header(r: &mut Reader<'_>, t: &DeTable<'_>, at: usize) -> Option<Header>
     })
 }
 
-/// The data path, resolved against the study file's folder; must end in .csv or .parquet.
-fn data_path(r: &mut Reader<'_>, v: &Val<'_>) -> Option<PathBuf> {
+/// The `[study]` key that lets the data path leave the study file's folder.
+const ALLOW_OUTSIDE: &str = "allow_data_outside_folder";
+
+/// The data path, resolved against the study file's folder; must end in .csv or .parquet, and
+/// must stay inside that folder unless the study says `allow_data_outside_folder = true` (so a
+/// study file from elsewhere cannot make an unattended run read any file on the machine).
+fn data_path(r: &mut Reader<'_>, v: &Val<'_>, allow_outside: bool) -> Option<PathBuf> {
     let written = r.name(v, "`data` in [study]")?;
+    if !allow_outside && leaves_folder(Path::new(&written)) {
+        r.report(
+            v.span().start,
+            format!("data file `{written}` is outside the study file's folder"),
+            Some(format!(
+                "move the data beside the study, or add `{ALLOW_OUTSIDE} = true` to [study] if this path is intended"
+            )),
+        );
+        return None;
+    }
     let extension = Path::new(&written)
         .extension()
         .and_then(|e| e.to_str())
@@ -166,6 +191,27 @@ fn data_path(r: &mut Reader<'_>, v: &Val<'_>) -> Option<PathBuf> {
         .map(Path::to_path_buf)
         .unwrap_or_default();
     Some(folder.join(written))
+}
+
+/// Whether a path written in the study leaves the study's folder: absolute, or more `..` steps
+/// than folders at some point. Judged on the text alone (symbolic links are not followed).
+fn leaves_folder(path: &Path) -> bool {
+    use std::path::Component;
+    let mut depth: i64 = 0;
+    for component in path.components() {
+        match component {
+            Component::Prefix(_) | Component::RootDir => return true,
+            Component::CurDir => {}
+            Component::ParentDir => {
+                depth -= 1;
+                if depth < 0 {
+                    return true;
+                }
+            }
+            Component::Normal(_) => depth += 1,
+        }
+    }
+    false
 }
 
 fn read_outcome(r: &mut Reader<'_>, t: &DeTable<'_>, at: usize) -> Option<OutcomeChoices> {

@@ -7,9 +7,7 @@ use crate::exit::Failure;
 /// Reads the study and the data, builds every design, and reports problems and warnings.
 pub fn run(study: &Path) -> Result<(), Failure> {
     let plan = super::load_plan(study)?;
-    let data = specgrid_data::load(&plan).map_err(|e| Failure::Data(e.to_string()))?;
-    let assembly =
-        specgrid_data::assemble(&plan, &data).map_err(|e| Failure::Data(e.to_string()))?;
+    let (data, assembly) = crate::data_guard::load_and_assemble(&plan)?;
     for warning in &assembly.warnings {
         eprintln!("warning: {warning}");
     }

@@ -1,14 +1,16 @@
 //! One module per subcommand; [`dispatch`] routes the parsed command line.
 
 mod check;
+mod compare;
 mod demo_data;
 mod plan;
 mod report;
+mod rerun;
 mod run;
 
 use std::path::Path;
 
-use specgrid_study::{load_study, Plan, StudyProblem};
+use specgrid_study::{load_study, Plan, Study, StudyProblem};
 
 use crate::cli::Command;
 use crate::exit::Failure;
@@ -24,13 +26,29 @@ pub fn dispatch(command: Command) -> Result<(), Failure> {
             all_terms,
             threads,
             quiet,
+            force,
+            against,
+            tolerance,
+            max_memory,
         } => run::run(&run::RunOptions {
             study,
             out,
             all_terms,
             threads,
             quiet,
+            rerun: rerun::RerunOptions {
+                force,
+                against,
+                tolerance: tolerance.into(),
+                max_memory,
+            },
         }),
+        Command::Compare {
+            old,
+            new,
+            errors,
+            tolerance,
+        } => compare::run(&old, &new, errors.as_deref(), tolerance.into()),
         Command::Report { dir } => report::run(&dir),
         Command::DemoData {
             plots,
@@ -47,6 +65,19 @@ pub fn dispatch(command: Command) -> Result<(), Failure> {
 pub(crate) fn load_plan(study: &Path) -> Result<Plan, Failure> {
     let parsed = load_study(study).map_err(study_failure)?;
     specgrid_study::plan(&parsed).map_err(study_failure)
+}
+
+/// For `run`: reads a study, refuses it up front if its results would not fit in memory (the
+/// grid is counted, not built), and plans it.
+pub(crate) fn load_study_plan(
+    study: &Path,
+    max_memory_mib: Option<u64>,
+) -> Result<(Study, Plan), Failure> {
+    let parsed = load_study(study).map_err(study_failure)?;
+    let count = specgrid_study::count_grid(&parsed).map_err(study_failure)?;
+    crate::memory::check(&parsed, &count, crate::memory::budget(max_memory_mib))?;
+    let plan = specgrid_study::plan(&parsed).map_err(study_failure)?;
+    Ok((parsed, plan))
 }
 
 fn study_failure(problems: Vec<StudyProblem>) -> Failure {
@@ -67,6 +98,15 @@ pub(crate) fn outcome_label(plan: &Plan, outcome: usize) -> String {
         transform: form.transform.clone(),
     }
     .label()
+}
+
+impl From<crate::cli::ToleranceArgs> for specgrid_report::Tolerance {
+    fn from(t: crate::cli::ToleranceArgs) -> Self {
+        specgrid_report::Tolerance {
+            relative: t.relative_tolerance,
+            std_errors: t.se_tolerance,
+        }
+    }
 }
 
 /// Formats a count with thousands separators (1,908).

@@ -64,6 +64,20 @@ pub fn render(
     extras: Extras,
     dir: &Path,
 ) -> Result<String, Failure> {
+    let report = build(record, study_text, rows, extras)?;
+    report
+        .write_all(dir)
+        .map_err(|e| Failure::Output(e.to_string()))?;
+    Ok(report.terminal())
+}
+
+/// Builds the report from result rows and the extras.
+fn build(
+    record: &RunRecord,
+    study_text: String,
+    rows: &[ResultRow],
+    extras: Extras,
+) -> Result<Report, Failure> {
     let header = ReportHeader {
         title: record.title.clone(),
         significance_level: record.significance_level,
@@ -92,16 +106,25 @@ pub fn render(
         input.set_effects(scale, record.effect_label.clone(), effects);
     }
     input.baseline_residuals = extras.baseline_residuals;
-    let report = Report::build(input)
-        .map_err(|e| Failure::Output(format!("cannot build the report: {e}")))?;
-    report
-        .write_all(dir)
-        .map_err(|e| Failure::Output(e.to_string()))?;
-    Ok(report.terminal())
+    Report::build(input).map_err(|e| Failure::Output(format!("cannot build the report: {e}")))
 }
 
 /// `specgrid report DIR`: re-render the report files of a results folder in place.
 pub fn run(dir: &Path) -> Result<(), Failure> {
+    let (record, study_text, rows, extras) = read_folder(dir)?;
+    print!("{}", render(&record, study_text, &rows, extras, dir)?);
+    Ok(())
+}
+
+/// The report of a results folder, rebuilt from its files (for comparing two runs).
+pub(crate) fn load(dir: &Path) -> Result<Report, Failure> {
+    let (record, study_text, rows, extras) = read_folder(dir)?;
+    build(&record, study_text, &rows, extras)
+}
+
+/// What re-rendering needs from a results folder: `run.json`, `study.toml`, `models.parquet`,
+/// and `effects.csv` and the baseline residuals when the run wrote them.
+fn read_folder(dir: &Path) -> Result<(RunRecord, String, Vec<ResultRow>, Extras), Failure> {
     let record_path = dir.join("run.json");
     let record: RunRecord =
         serde_json::from_str(&fs::read_to_string(&record_path).map_err(|e| {
@@ -134,8 +157,7 @@ pub fn run(dir: &Path) -> Result<(), Failure> {
         effects,
         baseline_residuals: read_residuals(&dir.join(RESIDUALS_FILE))?,
     };
-    print!("{}", render(&record, study_text, &rows, extras, dir)?);
-    Ok(())
+    Ok((record, study_text, rows, extras))
 }
 
 /// Writes the baseline model's (fitted, residual) pairs, shortest round-trip decimals.

@@ -11,6 +11,7 @@ use specgrid_report::{Scale, StoredEffects};
 use specgrid_study::Plan;
 
 use super::report::{self, RunRecord};
+use super::rerun::{self, Inputs, RerunOptions};
 use crate::effects::{self, EvaluationCache, Recipe};
 use crate::exit::Failure;
 use crate::output::Staging;
@@ -28,6 +29,8 @@ pub struct RunOptions {
     pub threads: Option<usize>,
     /// No progress bar.
     pub quiet: bool,
+    /// Skipping, comparison, verdict, memory bound.
+    pub rerun: RerunOptions,
 }
 
 /// One model's outcome: where it was fitted and what came back.
@@ -46,7 +49,13 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
             .build_global()
             .map_err(|e| Failure::Estimation(format!("cannot start {n} worker threads: {e}")))?;
     }
-    let plan = super::load_plan(&options.study)?;
+    let (study, plan) = super::load_study_plan(&options.study, options.rerun.max_memory)?;
+    let study_text = std::fs::read_to_string(&options.study)
+        .map_err(|e| Failure::Study(format!("{}: {e}", options.study.display())))?;
+    let inputs = Inputs::hash(&study_text, &plan)?;
+    if let Some(skipped) = rerun::skip_unchanged(&options.out, &inputs, options.rerun.force) {
+        return skipped;
+    }
     let scale = effects::report_scale(plan.report.scale);
     // Decided from the plan alone, so a study whose effects cannot be converted fails at once.
     let recipes = (scale != Scale::Coefficient)
@@ -54,9 +63,7 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         .transpose()?;
     let dimension_names: Vec<String> = plan.dimensions.iter().map(|d| d.name.clone()).collect();
     let mut models = ResultsTable::new(&dimension_names)?;
-    let data = specgrid_data::load(&plan).map_err(|e| Failure::Data(e.to_string()))?;
-    let assembly =
-        specgrid_data::assemble(&plan, &data).map_err(|e| Failure::Data(e.to_string()))?;
+    let (data, assembly) = crate::data_guard::load_and_assemble(&plan)?;
     for warning in &assembly.warnings {
         eprintln!("warning: {warning}");
     }
@@ -99,8 +106,7 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
             .as_ref()
             .and(plan.baseline)
             .map(|i| plan.models[i].id.clone()),
-        data_fingerprint: specgrid_data::fingerprint(&plan.data_path)
-            .map_err(|e| Failure::Data(e.to_string()))?,
+        data_fingerprint: inputs.data_sha256.clone(),
         dimensions: plan
             .dimensions
             .iter()
@@ -113,8 +119,6 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
             String::new()
         },
     };
-    let study_text = std::fs::read_to_string(&options.study)
-        .map_err(|e| Failure::Study(format!("{}: {e}", options.study.display())))?;
     write_text(&staging.file("study.toml"), &study_text)?;
     let record_json = serde_json::to_string_pretty(&record)
         .map_err(|e| Failure::Output(format!("run.json: {e}")))?;
@@ -130,6 +134,9 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         extras,
         staging.dir(),
     )?;
+    let (rerun_text, verdict) = rerun::compare_and_judge(&staging, &study, &options.rerun)?;
+    rerun::write_manifest(&staging, &plan, &assembly, data.n_rows, &inputs)?;
+    rerun::pause_for_tests();
     let written = staging.commit()?;
 
     let failed = estimated.iter().filter(|e| e.fit.is_err()).count();
@@ -141,7 +148,11 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         written.display()
     );
     print!("{terminal}");
-    Ok(())
+    print!("{rerun_text}");
+    match verdict.and_then(|v| v.failure()) {
+        Some(failure) => Err(failure),
+        None => Ok(()),
+    }
 }
 
 /// Every model's effect on the study's scale, keyed for the report; conversions undefined at

@@ -25,6 +25,19 @@ pub fn specgrid(args: &[&str], cwd: &Path) -> Output {
         .expect("the specgrid binary runs")
 }
 
+/// `specgrid run STUDY --out OUT --quiet EXTRA…`, from the study's folder.
+pub fn run_study(study: &Path, out: &Path, extra: &[&str]) -> Output {
+    let mut args = vec![
+        "run",
+        study.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ];
+    args.extend_from_slice(extra);
+    specgrid(&args, study.parent().unwrap())
+}
+
 /// Stdout and stderr as text, for assertion messages.
 pub fn text(output: &Output) -> String {
     format!(
