@@ -59,6 +59,10 @@ pub enum Command {
         /// default: half the memory the system reports available).
         #[arg(long, value_name = "MIB")]
         max_memory: Option<u64>,
+        /// Fit and write the results this many models at a time, so only one chunk of result
+        /// rows is in memory (default: the whole grid at once).
+        #[arg(long, value_name = "MODELS", value_parser = clap::value_parser!(u64).range(1..))]
+        chunk: Option<u64>,
     },
     /// Compare two results folders of the same study: models added and removed, sign flips,
     /// changes of significance, moved estimates, every aggregate; judge the `[verdict]`.

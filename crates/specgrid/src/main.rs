@@ -10,6 +10,7 @@ mod manifest;
 mod memory;
 mod output;
 mod results;
+mod results_stream;
 mod verdict;
 
 use std::process::ExitCode;

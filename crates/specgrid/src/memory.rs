@@ -28,8 +28,10 @@ pub struct Estimate {
     pub bytes: u128,
 }
 
-/// Estimates the memory of a run's results from the counted grid.
-pub fn estimate(study: &Study, count: &GridCount) -> Estimate {
+/// Estimates the memory of a run's results from the counted grid; with `chunk` (models written
+/// at a time) only that many models' rows are held in full, plus each model's lead rows for
+/// the report.
+pub fn estimate(study: &Study, count: &GridCount, chunk: Option<usize>) -> Estimate {
     let models = match study.grid.sample {
         Some(n) => count.after_exclusions.min(n as u128),
         None => count.after_exclusions,
@@ -46,9 +48,17 @@ pub fn estimate(study: &Study, count: &GridCount) -> Estimate {
         .saturating_mul(study.errors.len().max(1) as u128)
         .saturating_mul(tracked.max(1) as u128);
     let per_row = BYTES_PER_ROW + BYTES_PER_ROW_PER_DIMENSION * count.dimensions.len() as u128;
+    let held_rows = match chunk {
+        Some(c) if (c as u128) < models => {
+            let per_model = rows / models.max(1);
+            let lead = models.saturating_mul(study.errors.len().max(1) as u128);
+            (c as u128 * per_model).saturating_mul(ROW_COPIES) + lead.saturating_mul(2)
+        }
+        _ => rows.saturating_mul(ROW_COPIES),
+    };
     let bytes = models
         .saturating_mul(BYTES_PER_MODEL)
-        .saturating_add(rows.saturating_mul(per_row).saturating_mul(ROW_COPIES));
+        .saturating_add(held_rows.saturating_mul(per_row));
     Estimate {
         models,
         rows,
@@ -69,17 +79,22 @@ pub fn budget(max_memory_mib: Option<u64>) -> Option<u128> {
 }
 
 /// Refuses a run whose estimate exceeds the budget.
-pub fn check(study: &Study, count: &GridCount, budget: Option<u128>) -> Result<(), Failure> {
+pub fn check(
+    study: &Study,
+    count: &GridCount,
+    budget: Option<u128>,
+    chunk: Option<usize>,
+) -> Result<(), Failure> {
     let Some(budget) = budget else {
         return Ok(());
     };
-    let e = estimate(study, count);
+    let e = estimate(study, count, chunk);
     // Past the grid limit the planner refuses with its own positioned message.
     if e.bytes <= budget || e.models > study.grid.limit {
         return Ok(());
     }
     Err(Failure::Study(format!(
-        "{}: the results of this grid would need about {} of memory ({} models × {} covariance choice(s) × tracked terms = {} result rows), more than the {} this run may use; draw fewer models with `sample = N` in [grid], add skip rules, or raise the bound with --max-memory (MiB)",
+        "{}: the results of this grid would need about {} of memory ({} models × {} covariance choice(s) × tracked terms = {} result rows), more than the {} this run may use; draw fewer models with `sample = N` in [grid], add skip rules, write the results in chunks with --chunk MODELS, or raise the bound with --max-memory (MiB)",
         study.source_path.display(),
         size_text(e.bytes),
         super::commands::thousands(e.models),

@@ -64,6 +64,7 @@ fn study(data: &Path, grouping_options: &str, errors: &str) -> String {
         r#"[study]
 title = "fixed effects"
 data = "{}"
+allow_data_outside_folder = true
 seed = 1
 
 [outcome]

@@ -30,6 +30,7 @@ pub fn dispatch(command: Command) -> Result<(), Failure> {
             against,
             tolerance,
             max_memory,
+            chunk,
         } => run::run(&run::RunOptions {
             study,
             out,
@@ -42,6 +43,7 @@ pub fn dispatch(command: Command) -> Result<(), Failure> {
                 tolerance: tolerance.into(),
                 max_memory,
             },
+            chunk: chunk.map(|c| c as usize),
         }),
         Command::Compare {
             old,
@@ -72,10 +74,16 @@ pub(crate) fn load_plan(study: &Path) -> Result<Plan, Failure> {
 pub(crate) fn load_study_plan(
     study: &Path,
     max_memory_mib: Option<u64>,
+    chunk: Option<usize>,
 ) -> Result<(Study, Plan), Failure> {
     let parsed = load_study(study).map_err(study_failure)?;
     let count = specgrid_study::count_grid(&parsed).map_err(study_failure)?;
-    crate::memory::check(&parsed, &count, crate::memory::budget(max_memory_mib))?;
+    crate::memory::check(
+        &parsed,
+        &count,
+        crate::memory::budget(max_memory_mib),
+        chunk,
+    )?;
     let plan = specgrid_study::plan(&parsed).map_err(study_failure)?;
     Ok((parsed, plan))
 }

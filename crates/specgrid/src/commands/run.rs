@@ -15,7 +15,8 @@ use super::rerun::{self, Inputs, RerunOptions};
 use crate::effects::{self, EvaluationCache, Recipe};
 use crate::exit::Failure;
 use crate::output::Staging;
-use crate::results::{write_csv, write_parquet, ModelStats, ResultsTable, TermValues};
+use crate::results::{ModelStats, ResultsTable, TermValues};
+use crate::results_stream::ChunkWriter;
 
 /// Everything `run` was asked to do.
 pub struct RunOptions {
@@ -31,6 +32,8 @@ pub struct RunOptions {
     pub quiet: bool,
     /// Skipping, comparison, verdict, memory bound.
     pub rerun: RerunOptions,
+    /// Fit and write this many models at a time (rows in memory for one chunk only).
+    pub chunk: Option<usize>,
 }
 
 /// One model's outcome: where it was fitted and what came back.
@@ -49,7 +52,8 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
             .build_global()
             .map_err(|e| Failure::Estimation(format!("cannot start {n} worker threads: {e}")))?;
     }
-    let (study, plan) = super::load_study_plan(&options.study, options.rerun.max_memory)?;
+    let (study, plan) =
+        super::load_study_plan(&options.study, options.rerun.max_memory, options.chunk)?;
     let study_text = std::fs::read_to_string(&options.study)
         .map_err(|e| Failure::Study(format!("{}: {e}", options.study.display())))?;
     let inputs = Inputs::hash(&study_text, &plan)?;
@@ -61,39 +65,30 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
     let recipes = (scale != Scale::Coefficient)
         .then(|| effects::recipes(&plan))
         .transpose()?;
-    let dimension_names: Vec<String> = plan.dimensions.iter().map(|d| d.name.clone()).collect();
-    let mut models = ResultsTable::new(&dimension_names)?;
     let (data, assembly) = crate::data_guard::load_and_assemble(&plan)?;
     for warning in &assembly.warnings {
         eprintln!("warning: {warning}");
     }
     let fit_options = fit_options(&plan, &assembly)?;
-    let estimated = estimate(&plan, &assembly, &fit_options, options)?;
-
     let staging = Staging::begin(&options.out)?;
-    let mut terms = options
-        .all_terms
-        .then(|| ResultsTable::new(&dimension_names))
-        .transpose()?;
-    for (index, result) in estimated.iter().enumerate() {
-        let tracked_columns = tracked_columns(&plan, result.design, index)?;
-        append_model(&plan, index, result, &mut models, Some(&tracked_columns));
-        if let Some(terms) = terms.as_mut() {
-            append_model(&plan, index, result, terms, None);
-        }
-    }
-    let converted = recipes
-        .map(|r| convert_effects(&plan, &data, &estimated, &r, scale))
-        .transpose()?;
-    let residuals = baseline_residuals(&plan, &estimated);
+    let written_models = estimate_and_write(
+        &plan,
+        &data,
+        &assembly,
+        &fit_options,
+        options,
+        recipes.as_deref(),
+        scale,
+        &staging,
+    )?;
+    let ChunkedResults {
+        report_rows,
+        effects: converted,
+        residuals,
+        failed,
+    } = written_models;
     if let Some(pairs) = &residuals {
         report::write_residuals(&staging.file(report::RESIDUALS_FILE), pairs)?;
-    }
-    let mut frame = models.to_frame()?;
-    write_csv(&mut frame, &staging.file("models.csv"))?;
-    write_parquet(&mut frame, &staging.file("models.parquet"))?;
-    if let Some(terms) = terms {
-        write_csv(&mut terms.to_frame()?, &staging.file("terms.csv"))?;
     }
     let record = RunRecord {
         title: plan.title.clone(),
@@ -127,22 +122,15 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         effects: converted,
         baseline_residuals: residuals,
     };
-    let terminal = report::render(
-        &record,
-        study_text,
-        &models.report_rows(),
-        extras,
-        staging.dir(),
-    )?;
+    let terminal = report::render(&record, study_text, &report_rows, extras, staging.dir())?;
     let (rerun_text, verdict) = rerun::compare_and_judge(&staging, &study, &options.rerun)?;
     rerun::write_manifest(&staging, &plan, &assembly, data.n_rows, &inputs)?;
     rerun::pause_for_tests();
     let written = staging.commit()?;
 
-    let failed = estimated.iter().filter(|e| e.fit.is_err()).count();
     println!(
         "{} models estimated in {:.1} s ({} failed; see `status` and `message`) → {}",
-        super::thousands(estimated.len() as u128),
+        super::thousands(plan.models.len() as u128),
         started.elapsed().as_secs_f64(),
         super::thousands(failed as u128),
         written.display()
@@ -160,15 +148,15 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
 fn convert_effects(
     plan: &Plan,
     data: &LoadedData,
-    estimated: &[Estimated<'_>],
+    estimated: &[(usize, Estimated<'_>)],
     recipes: &[Recipe],
     scale: Scale,
-) -> Result<StoredEffects, Failure> {
+    cache: &mut EvaluationCache,
+    stored: &mut StoredEffects,
+) -> Result<Vec<String>, Failure> {
     let labels: Vec<String> = plan.errors.iter().map(|e| e.label()).collect();
-    let mut cache = EvaluationCache::default();
     let mut problems = Vec::new();
-    let mut stored = StoredEffects::new();
-    for (i, result) in estimated.iter().enumerate() {
+    for &(i, ref result) in estimated {
         let Ok(fit) = &result.fit else { continue };
         let model = &plan.models[i];
         let point = cache.point(
@@ -188,14 +176,7 @@ fn convert_effects(
             }
         }
     }
-    if let Some(first) = problems.first() {
-        eprintln!(
-            "warning: {} effect(s) could not be put on the `{}` scale and are left empty, e.g.: {first}",
-            problems.len(),
-            scale.label()
-        );
-    }
-    Ok(stored)
+    Ok(problems)
 }
 
 /// Most points kept for the baseline's residual plot (the plot draws at most this many).
@@ -203,9 +184,12 @@ const RESIDUAL_POINTS: usize = 4000;
 
 /// (fitted, residual) of the baseline model over its rows, every k-th row so at most
 /// [`RESIDUAL_POINTS`] remain; `None` when there is no baseline or it failed.
-fn baseline_residuals(plan: &Plan, estimated: &[Estimated<'_>]) -> Option<Vec<(f64, f64)>> {
+fn baseline_residuals(
+    plan: &Plan,
+    estimated: &[(usize, Estimated<'_>)],
+) -> Option<Vec<(f64, f64)>> {
     let b = plan.baseline?;
-    let result = &estimated[b];
+    let (_, result) = estimated.iter().find(|(i, _)| *i == b)?;
     let fit = result.fit.as_ref().ok()?;
     // With absorbed effects or weights the fit lives on the prepared design: within (and
     // weighted) fitted values and residuals.
@@ -257,54 +241,163 @@ fn fit_options(plan: &Plan, assembly: &Assembly) -> Result<FitOptions, Failure> 
     })
 }
 
-/// Fits every model of the plan, one shared factorisation per design, with a progress bar.
-fn estimate<'a>(
+/// What the chunked estimation keeps for the report once every chunk is written.
+struct ChunkedResults {
+    /// Result rows of each model's first tracked term (all the report reads).
+    report_rows: Vec<specgrid_report::ResultRow>,
+    /// Effects on the study's scale, when it is not `coefficient`.
+    effects: Option<StoredEffects>,
+    /// The baseline's (fitted, residual) pairs.
+    residuals: Option<Vec<(f64, f64)>>,
+    /// Models that failed.
+    failed: usize,
+}
+
+/// Fits every model of the plan, one shared factorisation per design made once, in chunks of
+/// plan order (`--chunk`, default: the whole grid), writing each chunk's rows before the next
+/// is fitted. Rows stay in plan order whatever the chunk size.
+#[allow(clippy::too_many_arguments)]
+fn estimate_and_write(
     plan: &Plan,
-    assembly: &'a Assembly,
+    data: &LoadedData,
+    assembly: &Assembly,
     fit_options: &FitOptions,
     options: &RunOptions,
-) -> Result<Vec<Estimated<'a>>, Failure> {
-    let progress = progress_bar(plan.models.len() as u64, options.quiet);
-    let mut slots: Vec<Option<Estimated<'a>>> = (0..plan.models.len()).map(|_| None).collect();
-    for (design_index, design) in assembly.designs.iter().enumerate() {
-        progress.set_message(format!("sample `{}`", design.sample_name));
-        let factor = design
-            .factor()
-            .map_err(|e| Failure::Estimation(format!("sample `{}`: {e}", design.sample_name)))?;
-        let specs = design
-            .models
-            .iter()
-            .map(|&m| {
-                let mut spec = design
-                    .model_spec(&plan.models[m])
-                    .map_err(|e| Failure::Data(e.to_string()))?;
-                if options.all_terms {
-                    // Empty tracked = inference for every coefficient of the model.
-                    spec.tracked.clear();
-                }
-                Ok(spec)
+    recipes: Option<&[Recipe]>,
+    scale: Scale,
+    staging: &Staging,
+) -> Result<ChunkedResults, Failure> {
+    let n = plan.models.len();
+    let chunk = options.chunk.unwrap_or(n).max(1);
+    let streaming = chunk < n;
+    let dimension_names: Vec<String> = plan.dimensions.iter().map(|d| d.name.clone()).collect();
+    let mut models_out = ChunkWriter::new(
+        staging.file("models.csv"),
+        Some(staging.file("models.parquet")),
+        streaming,
+    );
+    let mut terms_out = options
+        .all_terms
+        .then(|| ChunkWriter::new(staging.file("terms.csv"), None, streaming));
+    let progress = progress_bar(n as u64, options.quiet);
+    let factors = assembly
+        .designs
+        .iter()
+        .map(|design| {
+            design
+                .factor()
+                .map_err(|e| Failure::Estimation(format!("sample `{}`: {e}", design.sample_name)))
+        })
+        .collect::<Result<Vec<_>, Failure>>()?;
+    let mut results = ChunkedResults {
+        report_rows: Vec::new(),
+        effects: recipes.map(|_| StoredEffects::new()),
+        residuals: None,
+        failed: 0,
+    };
+    let mut cache = EvaluationCache::default();
+    let mut problems = Vec::new();
+    for start in (0..n).step_by(chunk) {
+        let end = (start + chunk).min(n);
+        let mut slots: Vec<Option<Estimated<'_>>> = (start..end).map(|_| None).collect();
+        for (design_index, (design, factor)) in assembly.designs.iter().zip(&factors).enumerate() {
+            // A design's models are in plan order, so the chunk's are one contiguous run.
+            let from = design.models.partition_point(|&m| m < start);
+            let to = design.models.partition_point(|&m| m < end);
+            let members = &design.models[from..to];
+            if members.is_empty() {
+                continue;
+            }
+            progress.set_message(format!("sample `{}`", design.sample_name));
+            let specs = members
+                .iter()
+                .map(|&m| {
+                    let mut spec = design
+                        .model_spec(&plan.models[m])
+                        .map_err(|e| Failure::Data(e.to_string()))?;
+                    if options.all_terms {
+                        // Empty tracked = inference for every coefficient of the model.
+                        spec.tracked.clear();
+                    }
+                    Ok(spec)
+                })
+                .collect::<Result<Vec<_>, Failure>>()?;
+            let fits =
+                factor.fit_many_with_progress(&specs, fit_options, &|k| progress.inc(k as u64));
+            for (&m, fit) in members.iter().zip(fits) {
+                slots[m - start] = Some(Estimated {
+                    design_index,
+                    design,
+                    fit,
+                });
+            }
+        }
+        let estimated = slots
+            .into_iter()
+            .enumerate()
+            .map(|(k, slot)| {
+                slot.map(|e| (start + k, e)).ok_or_else(|| {
+                    Failure::Estimation(format!(
+                        "model {} was not assigned to any design (internal error; please report it)",
+                        plan.models[start + k].id
+                    ))
+                })
             })
             .collect::<Result<Vec<_>, Failure>>()?;
-        let fits = factor.fit_many_with_progress(&specs, fit_options, &|n| progress.inc(n as u64));
-        for (&m, fit) in design.models.iter().zip(fits) {
-            slots[m] = Some(Estimated {
-                design_index,
-                design,
-                fit,
-            });
+        let mut table = ResultsTable::new(&dimension_names)?;
+        let mut terms = options
+            .all_terms
+            .then(|| ResultsTable::new(&dimension_names))
+            .transpose()?;
+        for (index, result) in &estimated {
+            let tracked = tracked_columns(plan, result.design, *index)?;
+            append_model(plan, *index, result, &mut table, Some(&tracked));
+            if let Some(terms) = terms.as_mut() {
+                append_model(plan, *index, result, terms, None);
+            }
         }
+        models_out.write(&table)?;
+        if let (Some(out), Some(terms)) = (terms_out.as_mut(), terms.as_ref()) {
+            out.write(terms)?;
+        }
+        results.report_rows.extend(lead_rows(table.report_rows()));
+        if let (Some(recipes), Some(stored)) = (recipes, results.effects.as_mut()) {
+            problems.extend(convert_effects(
+                plan, data, &estimated, recipes, scale, &mut cache, stored,
+            )?);
+        }
+        if results.residuals.is_none() {
+            results.residuals = baseline_residuals(plan, &estimated);
+        }
+        results.failed += estimated.iter().filter(|(_, e)| e.fit.is_err()).count();
     }
     progress.finish_and_clear();
-    slots
-        .into_iter()
-        .enumerate()
-        .map(|(i, slot)| {
-            slot.ok_or_else(|| {
-                Failure::Estimation(format!(
-                    "model {} was not assigned to any design (internal error; please report it)",
-                    plan.models[i].id
-                ))
-            })
+    models_out.finish()?;
+    if let Some(out) = terms_out {
+        out.finish()?;
+    }
+    if let Some(first) = problems.first() {
+        eprintln!(
+            "warning: {} effect(s) could not be put on the `{}` scale and are left empty, e.g.: {first}",
+            problems.len(),
+            scale.label()
+        );
+    }
+    Ok(results)
+}
+
+/// The rows of each model's first tracked term: all the report reads (it takes each model's
+/// first term), so the rest need not stay in memory.
+fn lead_rows(rows: Vec<specgrid_report::ResultRow>) -> Vec<specgrid_report::ResultRow> {
+    let mut lead: Option<(String, String)> = None;
+    rows.into_iter()
+        .filter(|r| {
+            match &lead {
+                Some((id, term)) if *id == r.model_id => return *term == r.term,
+                _ => {}
+            }
+            lead = Some((r.model_id.clone(), r.term.clone()));
+            true
         })
         .collect()
 }
