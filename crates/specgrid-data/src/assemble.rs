@@ -554,18 +554,20 @@ fn split_by_settings(plan: &Plan, group: Group) -> Vec<Group> {
         let g = match parts.iter().position(|p| p.settings == settings) {
             Some(g) => g,
             None => {
+                // Each part keeps the row group's terms and outcomes (under shared rows: all of
+                // the plan's), so splitting changes nothing for a grid without settings.
                 parts.push(Group {
                     settings,
                     models: Vec::new(),
-                    terms: Vec::new(),
-                    outcomes: Vec::new(),
+                    terms: group.terms.clone(),
+                    outcomes: group.outcomes.clone(),
                     atoms: group.atoms.clone(),
                     mask: group.mask.clone(),
                 });
                 parts.len() - 1
             }
         };
-        parts[g].add(&plan.models[m], m, Vec::new());
+        parts[g].models.push(m);
     }
     parts
 }
