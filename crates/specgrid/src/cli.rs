@@ -46,6 +46,9 @@ pub enum Command {
         /// Hide the progress bar.
         #[arg(long)]
         quiet: bool,
+        /// Print seconds spent per phase (plan, load, factor, fit, write, report) to stderr.
+        #[arg(long)]
+        timings: bool,
     },
     /// Re-render the report files of a results folder without re-estimating.
     Report {

@@ -6,6 +6,7 @@ mod effects;
 mod exit;
 mod output;
 mod results;
+mod timings;
 
 use std::process::ExitCode;
 

@@ -24,12 +24,14 @@ pub fn dispatch(command: Command) -> Result<(), Failure> {
             all_terms,
             threads,
             quiet,
+            timings,
         } => run::run(&run::RunOptions {
             study,
             out,
             all_terms,
             threads,
             quiet,
+            timings,
         }),
         Command::Report { dir } => report::run(&dir),
         Command::DemoData {

@@ -15,6 +15,7 @@ use crate::effects::{self, EvaluationCache, Recipe};
 use crate::exit::Failure;
 use crate::output::Staging;
 use crate::results::{write_csv, write_parquet, ModelStats, ResultsTable, TermValues};
+use crate::timings::{self, time};
 
 /// Everything `run` was asked to do.
 pub struct RunOptions {
@@ -28,6 +29,8 @@ pub struct RunOptions {
     pub threads: Option<usize>,
     /// No progress bar.
     pub quiet: bool,
+    /// Print seconds per phase to stderr at the end (see `crate::timings`).
+    pub timings: bool,
 }
 
 /// One model's outcome: where it was fitted and what came back.
@@ -46,7 +49,7 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
             .build_global()
             .map_err(|e| Failure::Estimation(format!("cannot start {n} worker threads: {e}")))?;
     }
-    let plan = super::load_plan(&options.study)?;
+    let plan = time("plan", || super::load_plan(&options.study))?;
     let scale = effects::report_scale(plan.report.scale);
     // Decided from the plan alone, so a study whose effects cannot be converted fails at once.
     let recipes = (scale != Scale::Coefficient)
@@ -54,14 +57,16 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         .transpose()?;
     let dimension_names: Vec<String> = plan.dimensions.iter().map(|d| d.name.clone()).collect();
     let mut models = ResultsTable::new(&dimension_names)?;
-    let data = specgrid_data::load(&plan).map_err(|e| Failure::Data(e.to_string()))?;
-    let assembly =
-        specgrid_data::assemble(&plan, &data).map_err(|e| Failure::Data(e.to_string()))?;
+    let data =
+        time("load", || specgrid_data::load(&plan)).map_err(|e| Failure::Data(e.to_string()))?;
+    let assembly = time("load", || specgrid_data::assemble(&plan, &data))
+        .map_err(|e| Failure::Data(e.to_string()))?;
     for warning in &assembly.warnings {
         eprintln!("warning: {warning}");
     }
     let fit_options = fit_options(&plan, &assembly)?;
     let estimated = estimate(&plan, &assembly, &fit_options, options)?;
+    let write_started = Instant::now();
 
     let staging = Staging::begin(&options.out)?;
     let mut terms = options
@@ -123,14 +128,20 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         effects: converted,
         baseline_residuals: residuals,
     };
-    let terminal = report::render(
-        &record,
-        study_text,
-        &models.report_rows(),
-        extras,
-        staging.dir(),
-    )?;
-    let written = staging.commit()?;
+    timings::add_since("write", write_started);
+    let terminal = time("report", || {
+        report::render(
+            &record,
+            study_text,
+            &models.report_rows(),
+            extras,
+            staging.dir(),
+        )
+    })?;
+    let written = time("write", || staging.commit())?;
+    if options.timings {
+        eprintln!("{}", timings::summary_line(started.elapsed()));
+    }
 
     let failed = estimated.iter().filter(|e| e.fit.is_err()).count();
     println!(
@@ -251,7 +262,7 @@ fn estimate<'a>(
     let mut slots: Vec<Option<Estimated<'a>>> = (0..plan.models.len()).map(|_| None).collect();
     for (design_index, design) in assembly.designs.iter().enumerate() {
         progress.set_message(format!("sample `{}`", design.sample_name));
-        let factor = SharedFactor::new(&design.design)
+        let factor = time("factor", || SharedFactor::new(&design.design))
             .map_err(|e| Failure::Estimation(format!("sample `{}`: {e}", design.sample_name)))?;
         let specs = design
             .models
@@ -267,7 +278,9 @@ fn estimate<'a>(
                 Ok(spec)
             })
             .collect::<Result<Vec<_>, Failure>>()?;
-        let fits = factor.fit_many_with_progress(&specs, fit_options, &|n| progress.inc(n as u64));
+        let fits = time("fit", || {
+            factor.fit_many_with_progress(&specs, fit_options, &|n| progress.inc(n as u64))
+        });
         for (&m, fit) in design.models.iter().zip(fits) {
             slots[m] = Some(Estimated {
                 design_index,
