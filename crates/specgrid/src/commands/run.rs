@@ -57,10 +57,12 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         .transpose()?;
     let dimension_names: Vec<String> = plan.dimensions.iter().map(|d| d.name.clone()).collect();
     let mut models = ResultsTable::new(&dimension_names)?;
-    let data =
-        time("load", || specgrid_data::load(&plan)).map_err(|e| Failure::Data(e.to_string()))?;
-    let assembly = time("load", || specgrid_data::assemble(&plan, &data))
-        .map_err(|e| Failure::Data(e.to_string()))?;
+    let data = time("load", || {
+        specgrid_data::load(&plan).map_err(|e| Failure::Data(e.to_string()))
+    })?;
+    let assembly = time("load", || {
+        specgrid_data::assemble(&plan, &data).map_err(|e| Failure::Data(e.to_string()))
+    })?;
     for warning in &assembly.warnings {
         eprintln!("warning: {warning}");
     }
