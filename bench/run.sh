@@ -40,7 +40,10 @@ cargo build --release --workspace --quiet
 echo "the agreement check's own tests ..."
 "$python" -m unittest discover -s bench -p 'test_*.py' 2>&1 | tail -1
 echo "machine floor: faer matrix product ..."
-cargo bench -p specgrid-ols --bench floor --quiet 2>/dev/null | tee "$work/floor.txt"
+if ! cargo bench -p specgrid-ols --bench floor --quiet >"$work/floor.txt" 2>"$work/floor.err"; then
+  echo "bench/run.sh: the floor bench failed:" >&2; tail -20 "$work/floor.err" >&2; exit 1
+fi
+cat "$work/floor.txt"
 
 # One BLAS thread for the loops: on this shared 2-core machine a 2-thread BLAS was 5x slower
 # on a 10,000 x 20 lstsq; specgrid is reported at 1 and at 2 threads.
