@@ -63,6 +63,9 @@ pub enum Command {
         /// rows is in memory (default: the whole grid at once).
         #[arg(long, value_name = "MODELS", value_parser = clap::value_parser!(u64).range(1..))]
         chunk: Option<u64>,
+        /// Print seconds spent per phase (plan, load, factor, fit, write, report) to stderr.
+        #[arg(long)]
+        timings: bool,
     },
     /// Compare two results folders of the same study: models added and removed, sign flips,
     /// changes of significance, moved estimates, every aggregate; judge the `[verdict]`.

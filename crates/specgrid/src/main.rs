@@ -11,6 +11,7 @@ mod memory;
 mod output;
 mod results;
 mod results_stream;
+mod timings;
 mod verdict;
 
 use std::process::ExitCode;

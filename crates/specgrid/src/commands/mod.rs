@@ -31,6 +31,7 @@ pub fn dispatch(command: Command) -> Result<(), Failure> {
             tolerance,
             max_memory,
             chunk,
+            timings,
         } => run::run(&run::RunOptions {
             study,
             out,
@@ -44,6 +45,7 @@ pub fn dispatch(command: Command) -> Result<(), Failure> {
                 max_memory,
             },
             chunk: chunk.map(|c| c as usize),
+            timings,
         }),
         Command::Compare {
             old,

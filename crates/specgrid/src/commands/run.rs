@@ -17,6 +17,7 @@ use crate::exit::Failure;
 use crate::output::Staging;
 use crate::results::{ModelStats, ResultsTable, TermValues};
 use crate::results_stream::ChunkWriter;
+use crate::timings::{self, time};
 
 /// Everything `run` was asked to do.
 pub struct RunOptions {
@@ -34,6 +35,8 @@ pub struct RunOptions {
     pub rerun: RerunOptions,
     /// Fit and write this many models at a time (rows in memory for one chunk only).
     pub chunk: Option<usize>,
+    /// Print seconds per phase to stderr at the end (see `crate::timings`).
+    pub timings: bool,
 }
 
 /// One model's outcome: where it was fitted and what came back.
@@ -52,8 +55,9 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
             .build_global()
             .map_err(|e| Failure::Estimation(format!("cannot start {n} worker threads: {e}")))?;
     }
-    let (study, plan) =
-        super::load_study_plan(&options.study, options.rerun.max_memory, options.chunk)?;
+    let (study, plan) = time("plan", || {
+        super::load_study_plan(&options.study, options.rerun.max_memory, options.chunk)
+    })?;
     let study_text = std::fs::read_to_string(&options.study)
         .map_err(|e| Failure::Study(format!("{}: {e}", options.study.display())))?;
     let inputs = Inputs::hash(&study_text, &plan)?;
@@ -65,7 +69,7 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
     let recipes = (scale != Scale::Coefficient)
         .then(|| effects::recipes(&plan))
         .transpose()?;
-    let (data, assembly) = crate::data_guard::load_and_assemble(&plan)?;
+    let (data, assembly) = time("load", || crate::data_guard::load_and_assemble(&plan))?;
     for warning in &assembly.warnings {
         eprintln!("warning: {warning}");
     }
@@ -122,11 +126,13 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         effects: converted,
         baseline_residuals: residuals,
     };
-    let terminal = report::render(&record, study_text, &report_rows, extras, staging.dir())?;
+    let terminal = time("report", || {
+        report::render(&record, study_text, &report_rows, extras, staging.dir())
+    })?;
     let (rerun_text, verdict) = rerun::compare_and_judge(&staging, &study, &options.rerun)?;
     rerun::write_manifest(&staging, &plan, &assembly, data.n_rows, &inputs)?;
     rerun::pause_for_tests();
-    let written = staging.commit()?;
+    let written = time("write", || staging.commit())?;
 
     println!(
         "{} models estimated in {:.1} s ({} failed; see `status` and `message`) → {}",
@@ -137,6 +143,9 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
     );
     print!("{terminal}");
     print!("{rerun_text}");
+    if options.timings {
+        eprintln!("{}", timings::summary_line(started.elapsed()));
+    }
     match verdict.and_then(|v| v.failure()) {
         Some(failure) => Err(failure),
         None => Ok(()),
@@ -284,8 +293,7 @@ fn estimate_and_write(
         .designs
         .iter()
         .map(|design| {
-            design
-                .factor()
+            time("factor", || design.factor())
                 .map_err(|e| Failure::Estimation(format!("sample `{}`: {e}", design.sample_name)))
         })
         .collect::<Result<Vec<_>, Failure>>()?;
@@ -322,8 +330,9 @@ fn estimate_and_write(
                     Ok(spec)
                 })
                 .collect::<Result<Vec<_>, Failure>>()?;
-            let fits =
-                factor.fit_many_with_progress(&specs, fit_options, &|k| progress.inc(k as u64));
+            let fits = time("fit", || {
+                factor.fit_many_with_progress(&specs, fit_options, &|k| progress.inc(k as u64))
+            });
             for (&m, fit) in members.iter().zip(fits) {
                 slots[m - start] = Some(Estimated {
                     design_index,
@@ -356,10 +365,13 @@ fn estimate_and_write(
                 append_model(plan, *index, result, terms, None);
             }
         }
-        models_out.write(&table)?;
-        if let (Some(out), Some(terms)) = (terms_out.as_mut(), terms.as_ref()) {
-            out.write(terms)?;
-        }
+        time("write", || -> Result<(), Failure> {
+            models_out.write(&table)?;
+            if let (Some(out), Some(terms)) = (terms_out.as_mut(), terms.as_ref()) {
+                out.write(terms)?;
+            }
+            Ok(())
+        })?;
         results.report_rows.extend(lead_rows(table.report_rows()));
         if let (Some(recipes), Some(stored)) = (recipes, results.effects.as_mut()) {
             problems.extend(convert_effects(
