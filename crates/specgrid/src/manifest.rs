@@ -26,6 +26,74 @@ pub struct SampleRows {
     pub rows_used: usize,
     /// Models estimated on these rows.
     pub models: usize,
+    /// What absorbing fixed effects and applying weights did, for designs that do either.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub absorption: Option<Absorption>,
+}
+
+/// The record of one absorption pass (docs/methods.md, "Fixed effects and weights").
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Absorption {
+    /// Absorbed columns.
+    pub effects: Vec<String>,
+    /// Levels of each, after dropping singletons.
+    pub levels: Vec<usize>,
+    /// Parameters the effects absorb (counted in the degrees of freedom).
+    pub absorbed_params: usize,
+    /// Sweeps of the alternating projections (1 for one effect).
+    pub sweeps: usize,
+    /// Largest relative change of the last sweep.
+    pub final_change: f64,
+    /// Rows dropped as alone in a level.
+    pub singletons_dropped: usize,
+    /// Rows dropped for a zero weight.
+    pub zero_weight_dropped: usize,
+    /// Weights as `kind:column`, if any.
+    pub weights: Option<String>,
+}
+
+impl Absorption {
+    /// The record of a prepared design, if it was prepared.
+    pub fn of(
+        design: &specgrid_data::SampleDesign,
+        plan: &specgrid_study::Plan,
+    ) -> Option<Absorption> {
+        let info = &design.absorbed.as_ref()?.info;
+        Some(Absorption {
+            effects: info.effects.clone(),
+            levels: info.levels.clone(),
+            absorbed_params: info.absorbed_params,
+            sweeps: info.sweeps,
+            final_change: info.final_change,
+            singletons_dropped: info.singletons_dropped,
+            zero_weight_dropped: info.zero_weight_dropped,
+            weights: design.weights_label(plan),
+        })
+    }
+
+    /// One line for the terminal.
+    pub fn summary(&self, sample: &str) -> String {
+        let effects = if self.effects.is_empty() {
+            "no effects".to_string()
+        } else {
+            format!(
+                "{} ({} parameters)",
+                self.effects.join(" + "),
+                self.absorbed_params
+            )
+        };
+        format!(
+            "note: sample `{sample}`: absorbed {effects} in {} sweep(s), last change {:.1e}; {} singleton and {} zero-weight row(s) dropped{}",
+            self.sweeps,
+            self.final_change,
+            self.singletons_dropped,
+            self.zero_weight_dropped,
+            self.weights
+                .as_ref()
+                .map(|w| format!("; weights {w}"))
+                .unwrap_or_default()
+        )
+    }
 }
 
 /// The manifest of one run.

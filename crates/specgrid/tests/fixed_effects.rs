@@ -212,3 +212,33 @@ fn bad_weights_and_misplaced_absorption_are_clear_errors() {
         text(&out)
     );
 }
+
+#[test]
+fn the_absorption_pass_is_reported_on_the_terminal_and_in_the_manifest() {
+    let work = tempfile::tempdir().unwrap();
+    let s = study(
+        &data_path(),
+        r#"{ name = "absorbed", terms = [{ absorb = "grp" }] }"#,
+        r#""classical""#,
+    );
+    std::fs::write(work.path().join("study.toml"), s).unwrap();
+    let out = specgrid(&["run", "study.toml", "--out", "r", "--quiet"], work.path());
+    assert!(out.status.success(), "{}", text(&out));
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        stderr.contains("absorbed grp (12 parameters) in 1 sweep(s)"),
+        "{stderr}"
+    );
+    let manifest: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(work.path().join("r/manifest.json")).unwrap(),
+    )
+    .unwrap();
+    let samples = manifest["samples"].as_array().unwrap();
+    // One plain design (the `none` option) and one absorbed design, both of sample `all rows`.
+    let absorbed: Vec<_> = samples.iter().filter_map(|s| s.get("absorption")).collect();
+    assert_eq!(absorbed.len(), 1, "{samples:?}");
+    assert_eq!(absorbed[0]["effects"], serde_json::json!(["grp"]));
+    assert_eq!(absorbed[0]["levels"], serde_json::json!([12]));
+    assert_eq!(absorbed[0]["absorbed_params"], 12);
+    assert_eq!(absorbed[0]["singletons_dropped"], 0);
+}

@@ -147,6 +147,7 @@ pub fn write_manifest(
                 rows_in_sample: d.account.rows_in_sample,
                 rows_used: d.account.rows_kept,
                 models: d.models.len(),
+                absorption: crate::manifest::Absorption::of(d, plan),
             })
             .collect(),
         seed: plan.seed,

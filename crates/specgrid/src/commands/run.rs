@@ -73,6 +73,11 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
     for warning in &assembly.warnings {
         eprintln!("warning: {warning}");
     }
+    for design in &assembly.designs {
+        if let Some(absorption) = crate::manifest::Absorption::of(design, &plan) {
+            eprintln!("{}", absorption.summary(&design.sample_name));
+        }
+    }
     let fit_options = fit_options(&plan, &assembly)?;
     let staging = Staging::begin(&options.out)?;
     let written_models = estimate_and_write(
