@@ -74,7 +74,7 @@ fn demo_effect_falls_when_plot_size_and_irrigation_enter() {
 
 /// The whole demo grid on the study's semi-elasticity scale (`[report]` in specs/orchards.toml):
 /// summary.json written by `specgrid run`. Log and level outcome models now share one scale, so
-/// the confounder shifts hold over all 1,908 models, and models that control for both plot size
+/// the confounder shifts hold over all 2,556 models, and models that control for both plot size
 /// and irrigation sit near the documented truth (a visit raises yield by about 3%) while the
 /// models without them sit above it.
 #[test]

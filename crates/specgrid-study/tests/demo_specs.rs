@@ -21,14 +21,14 @@ fn the_orchard_study_plans_to_its_documented_size() {
         repo("specs").join("../demo-data/orchards.csv")
     );
     let p = plan(&study).unwrap();
-    // Product rule: 2 outcome × 6 focus × 3 plot size × 3 irrigation × 2 soil × 3 grouping × 3 samples.
-    assert_eq!(p.size_before_exclusions, 2 * 6 * 3 * 3 * 2 * 3 * 3);
+    // Product rule: 2 outcome × 6 focus × 3 plot size × 3 irrigation × 2 soil × 4 grouping × 3 samples.
+    assert_eq!(p.size_before_exclusions, 2 * 6 * 3 * 3 * 2 * 4 * 3);
     // The skip rule fixes focus, grouping and sample: 2 × 3 × 3 × 2 = 36 models skipped.
-    assert_eq!(p.size_after_exclusions, 1944 - 36);
-    assert_eq!(p.models.len(), 1908);
+    assert_eq!(p.size_after_exclusions, 2592 - 36);
+    assert_eq!(p.models.len(), 2556);
     // Shared rows: the two outcome forms share each factorisation.
     assert_eq!(p.row_policy, RowPolicy::SharedRows);
-    assert_eq!(p.factorisations, 954);
+    assert_eq!(p.factorisations, 2556 / 2);
     assert_eq!(p.baseline, Some(0));
     assert_eq!(p.errors.len(), 5);
     assert!(p.errors.contains(&ErrorChoice::TwoWayCluster {

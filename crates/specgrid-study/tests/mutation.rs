@@ -196,7 +196,7 @@ fn mutated_study_files_never_panic_and_always_explain_themselves() {
     let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("../..");
     let seeds = [
         EVERY_SECTION.to_string(),
-        // The demo with a random sample of 25 of its 1,908 models: planning all of them would
+        // The demo with a random sample of 25 of its 2,556 models: planning all of them would
         // make each case 50 times slower and test nothing more.
         std::fs::read_to_string(root.join("specs/orchards.toml"))
             .unwrap()

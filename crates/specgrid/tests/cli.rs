@@ -309,9 +309,9 @@ fn demo_study_runs_end_to_end() {
     assert!(output.status.success(), "{}", text(&output));
     let frame = read_parquet(&out.join("models.parquet"));
     let ids: BTreeSet<String> = strings(&frame, "model_id").into_iter().collect();
-    // specs/orchards.toml: 2 × 6 × 3 × 3 × 2 × 3 × 3 = 1,944 combinations, less the skip rule's
+    // specs/orchards.toml: 2 × 6 × 3 × 3 × 2 × 4 × 3 = 2,592 combinations, less the skip rule's
     // 2 outcomes × 3 × 3 × 2 = 36 (product rule; common practice).
-    assert_eq!(ids.len(), 1908);
+    assert_eq!(ids.len(), 2556);
     for column in [
         "outcome",
         "focus",

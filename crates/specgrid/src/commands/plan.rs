@@ -20,17 +20,33 @@ pub fn run(study: &Path, list: bool) -> Result<(), Failure> {
 /// How many union QR factorisations the run needs: one per sample under shared rows; under
 /// per-model rows one per distinct row set, which only the data can tell.
 fn union_factorisations(plan: &Plan) -> String {
-    let mut samples: Vec<usize> = plan.models.iter().map(|m| m.sample).collect();
-    samples.sort_unstable();
-    samples.dedup();
+    // One per sample and set of absorbed effects and weights (each such set is its own
+    // prepared design).
+    let mut keys: Vec<(usize, Vec<usize>)> = plan
+        .models
+        .iter()
+        .map(|m| {
+            let mut settings: Vec<usize> = m
+                .terms
+                .iter()
+                .copied()
+                .filter(|&t| plan.terms[t].is_design_setting())
+                .collect();
+            settings.sort_unstable();
+            (m.sample, settings)
+        })
+        .collect();
+    keys.sort_unstable();
+    keys.dedup();
+    let what = "one per sample and set of absorbed effects and weights";
     match plan.row_policy {
         RowPolicy::SharedRows => format!(
-            "{} (one per sample; every model of a sample reuses it)",
-            samples.len()
+            "{} ({what}; every model of such a set reuses it)",
+            keys.len()
         ),
         RowPolicy::PerModel => format!(
-            "at least {} (one per sample and distinct row set; the data decide)",
-            samples.len()
+            "at least {} ({what}, and distinct row set; the data decide)",
+            keys.len()
         ),
     }
 }
