@@ -5,45 +5,18 @@
 
 mod common;
 
-use common::{read_parquet, repo_root, run_study, text};
+use common::{effects_study, read_parquet, repo_root, run_study, text};
 
 #[test]
 fn chunked_runs_write_the_same_results() {
     let work = tempfile::tempdir().unwrap();
     // The effects study: 12 models, three covariance choices, semi-elasticities.
-    let fixture = repo_root().join("tests/reference/statsmodels/effects");
-    std::fs::copy(fixture.join("data.csv"), work.path().join("data.csv")).unwrap();
+    let data = repo_root()
+        .join("tests/reference/statsmodels/effects/data.csv")
+        .canonicalize()
+        .unwrap();
     let study = work.path().join("study.toml");
-    std::fs::write(
-        &study,
-        r#"[study]
-title = "chunks"
-data = "data.csv"
-seed = 1
-
-[outcome]
-column = "y"
-forms = ["level", "log"]
-
-[focus]
-column = "x"
-forms = ["level", "log1p", "quadratic"]
-also_track = [{ product = ["x", "d"] }]
-
-[[controls]]
-name = "moderation"
-role = "alternatives"
-include_none = true
-options = [{ name = "moderated", terms = ["d", { product = ["x", "d"] }] }]
-
-[errors]
-choices = ["classical", "hc1", { cluster = "grp" }]
-
-[report]
-scale = "semi-elasticity"
-"#,
-    )
-    .unwrap();
+    std::fs::write(&study, effects_study(&data, "semi-elasticity")).unwrap();
     let whole = work.path().join("whole");
     let o = run_study(&study, &whole, &["--all-terms"]);
     assert!(o.status.success(), "{}", text(&o));

@@ -9,7 +9,7 @@ mod common;
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
-use common::{read_csv, repo_root, specgrid, strings, text};
+use common::{effects_study, read_csv, repo_root, specgrid, strings, text};
 use serde_json::Value;
 
 /// Relative agreement required with the reference (both sides are double-precision QR/pinv
@@ -18,45 +18,6 @@ const RTOL: f64 = 1e-8;
 
 fn fixture_dir() -> PathBuf {
     repo_root().join("tests/reference/statsmodels/effects")
-}
-
-/// The study the fixture's grid describes, on the chosen scale.
-fn study_text(data: &Path, scale: &str) -> String {
-    format!(
-        r#"[study]
-title = "effects reference"
-data = "{}"
-allow_data_outside_folder = true
-seed = 1
-
-[outcome]
-column = "y"
-forms = ["level", "log"]
-
-[focus]
-column = "x"
-forms = ["level", "log1p", "quadratic"]
-also_track = [{{ product = ["x", "d"] }}]
-
-[[controls]]
-name = "w"
-role = "always"
-terms = ["w"]
-
-[[controls]]
-name = "moderation"
-role = "alternatives"
-include_none = true
-options = [{{ name = "moderated", terms = ["d", {{ product = ["x", "d"] }}] }}]
-
-[errors]
-choices = ["classical", "hc1", {{ cluster = "grp" }}]
-
-[report]
-scale = "{scale}"
-"#,
-        data.display()
-    )
 }
 
 fn close(got: f64, want: f64, what: &str) {
@@ -167,7 +128,7 @@ fn every_scale_matches_statsmodels_with_textbook_conversions() {
     for scale in ["marginal effect", "semi-elasticity", "elasticity"] {
         let work = tempfile::tempdir().unwrap();
         let study = work.path().join("study.toml");
-        std::fs::write(&study, study_text(&data, scale)).unwrap();
+        std::fs::write(&study, effects_study(&data, scale)).unwrap();
         let out = work.path().join("results");
         let run = specgrid(
             &["run", "study.toml", "--out", "results", "--quiet"],

@@ -92,6 +92,18 @@ choices = [{errors}]
     )
 }
 
+/// Runs the study with these grouping options and classical errors into `r` in a fresh folder.
+fn run_grouping(options: &str) -> (tempfile::TempDir, std::process::Output) {
+    let work = tempfile::tempdir().unwrap();
+    std::fs::write(
+        work.path().join("study.toml"),
+        study(&data_path(), options, r#""classical""#),
+    )
+    .unwrap();
+    let out = specgrid(&["run", "study.toml", "--out", "r", "--quiet"], work.path());
+    (work, out)
+}
+
 fn close(a: f64, b: f64, what: &str) {
     assert!(
         (a - b).abs() <= 1e-9 * b.abs().max(1e-300),
@@ -178,15 +190,8 @@ fn frequency_weights_equal_repeated_rows() {
 
 #[test]
 fn bad_weights_and_misplaced_absorption_are_clear_errors() {
-    let work = tempfile::tempdir().unwrap();
     // `w` has negative values: an error naming the column and the row count, exit code 4.
-    let s = study(
-        &data_path(),
-        r#"{ name = "weighted", terms = [{ weights = "w" }] }"#,
-        r#""classical""#,
-    );
-    std::fs::write(work.path().join("study.toml"), s).unwrap();
-    let out = specgrid(&["run", "study.toml", "--out", "r", "--quiet"], work.path());
+    let (work, out) = run_grouping(r#"{ name = "weighted", terms = [{ weights = "w" }] }"#);
     assert_eq!(out.status.code(), Some(4), "{}", text(&out));
     assert!(
         text(&out).contains("weights `w` are negative in"),
@@ -215,14 +220,7 @@ fn bad_weights_and_misplaced_absorption_are_clear_errors() {
 
 #[test]
 fn the_absorption_pass_is_reported_on_the_terminal_and_in_the_manifest() {
-    let work = tempfile::tempdir().unwrap();
-    let s = study(
-        &data_path(),
-        r#"{ name = "absorbed", terms = [{ absorb = "grp" }] }"#,
-        r#""classical""#,
-    );
-    std::fs::write(work.path().join("study.toml"), s).unwrap();
-    let out = specgrid(&["run", "study.toml", "--out", "r", "--quiet"], work.path());
+    let (work, out) = run_grouping(r#"{ name = "absorbed", terms = [{ absorb = "grp" }] }"#);
     assert!(out.status.success(), "{}", text(&out));
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(

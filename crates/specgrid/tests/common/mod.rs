@@ -103,3 +103,42 @@ pub fn lre(estimate: f64, certified: f64) -> f64 {
         -err.log10()
     }
 }
+
+/// The study of the effects fixture's grid (tests/reference/statsmodels/effects), on `scale`.
+pub fn effects_study(data: &Path, scale: &str) -> String {
+    format!(
+        r#"[study]
+title = "effects reference"
+data = "{}"
+allow_data_outside_folder = true
+seed = 1
+
+[outcome]
+column = "y"
+forms = ["level", "log"]
+
+[focus]
+column = "x"
+forms = ["level", "log1p", "quadratic"]
+also_track = [{{ product = ["x", "d"] }}]
+
+[[controls]]
+name = "w"
+role = "always"
+terms = ["w"]
+
+[[controls]]
+name = "moderation"
+role = "alternatives"
+include_none = true
+options = [{{ name = "moderated", terms = ["d", {{ product = ["x", "d"] }}] }}]
+
+[errors]
+choices = ["classical", "hc1", {{ cluster = "grp" }}]
+
+[report]
+scale = "{scale}"
+"#,
+        data.display()
+    )
+}
