@@ -538,19 +538,9 @@ impl Group {
 /// design of its own, demeaned and weighted once for all its models. Groups without settings
 /// pass through unchanged.
 fn split_by_settings(plan: &Plan, group: Group) -> Vec<Group> {
-    let settings_of = |m: usize| -> Vec<usize> {
-        let mut s: Vec<usize> = plan.models[m]
-            .terms
-            .iter()
-            .copied()
-            .filter(|&t| plan.terms[t].is_design_setting())
-            .collect();
-        s.sort_unstable();
-        s
-    };
     let mut parts: Vec<Group> = Vec::new();
     for &m in &group.models {
-        let settings = settings_of(m);
+        let settings = plan.design_settings(&plan.models[m]);
         let g = match parts.iter().position(|p| p.settings == settings) {
             Some(g) => g,
             None => {

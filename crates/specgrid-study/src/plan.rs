@@ -510,6 +510,19 @@ impl Plan {
         cols
     }
 
+    /// The model's terms that absorb effects or give weights, sorted: models with equal sets
+    /// share one prepared design per sample.
+    pub fn design_settings(&self, model: &PlannedModel) -> Vec<usize> {
+        let mut settings: Vec<usize> = model
+            .terms
+            .iter()
+            .copied()
+            .filter(|&t| self.terms[t].is_design_setting())
+            .collect();
+        settings.sort_unstable();
+        settings
+    }
+
     /// Source columns used for clustering by any error choice.
     pub fn cluster_columns(&self) -> Vec<&str> {
         let mut cols: Vec<&str> = Vec::new();

@@ -25,16 +25,7 @@ fn union_factorisations(plan: &Plan) -> String {
     let mut keys: Vec<(usize, Vec<usize>)> = plan
         .models
         .iter()
-        .map(|m| {
-            let mut settings: Vec<usize> = m
-                .terms
-                .iter()
-                .copied()
-                .filter(|&t| plan.terms[t].is_design_setting())
-                .collect();
-            settings.sort_unstable();
-            (m.sample, settings)
-        })
+        .map(|m| (m.sample, plan.design_settings(m)))
         .collect();
     keys.sort_unstable();
     keys.dedup();
