@@ -15,7 +15,7 @@ use crate::model_core::CoreFit;
 const EPS: f64 = f64::EPSILON / 2.0;
 /// Refine when the first-order bound says a coefficient may be off by more than this fraction
 /// of its yardstick (b̃ = coefficients in scaled units, i.e. in units of y).
-const TRIGGER: f64 = 1e-11;
+const TRIGGER: f64 = 1e-9;
 /// Largest last correction (relative to the yardstick) accepted as converged: the remaining
 /// error is about one more correction, so 1e-8 leaves a factor 10 against the 7-digit promise.
 const ACCEPT: f64 = 1e-8;
