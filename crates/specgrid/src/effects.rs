@@ -26,8 +26,20 @@ pub struct Recipe {
     focus: FocusForm,
     /// Plan terms of the focus form, in order (x, then x², … for a polynomial).
     focus_terms: Vec<usize>,
-    /// The tracked product of the raw focus with a moderator, and the moderator term.
-    interaction: Option<(usize, Term)>,
+    /// The tracked product of the raw focus with a moderator.
+    interaction: Option<Interaction>,
+}
+
+/// A tracked product of the raw focus with a moderator.
+#[derive(Debug, Clone, PartialEq)]
+struct Interaction {
+    /// Plan term of the product.
+    product: usize,
+    /// The moderator side.
+    moderator: Term,
+    /// The plan term equal to the moderator, when some model uses it on its own (its column
+    /// gives the moderator's mean); found once here, not per model.
+    moderator_term: Option<usize>,
 }
 
 /// The report scale for a study scale.
@@ -116,7 +128,12 @@ fn recipe(plan: &Plan, model: &PlannedModel) -> Result<Recipe, String> {
         if interaction.is_some() {
             return Err("it has more than one product with the focus".into());
         }
-        interaction = Some((t, (**moderator).clone()));
+        let wanted = moderator.canonical();
+        interaction = Some(Interaction {
+            product: t,
+            moderator_term: plan.terms.iter().position(|u| u.canonical() == wanted),
+            moderator: (**moderator).clone(),
+        });
     }
     Ok(Recipe {
         outcome,
@@ -165,8 +182,8 @@ impl EvaluationCache {
         recipe: &Recipe,
     ) -> Result<EvaluationPoint, Failure> {
         let moderator_column = match &recipe.interaction {
-            Some((_, moderator)) if plan.report.evaluate_at.moderator.is_none() => {
-                Some(moderator_column(plan, design, moderator)?)
+            Some(interaction) if plan.report.evaluate_at.moderator.is_none() => {
+                Some(moderator_column(design, interaction)?)
             }
             _ => None,
         };
@@ -215,22 +232,13 @@ impl EvaluationCache {
 
 /// The union column holding the moderator's values: the moderator must enter the design as a
 /// term of its own with exactly one column (as `irrigated` does beside `visits × irrigated`).
-fn moderator_column(
-    plan: &Plan,
-    design: &SampleDesign,
-    moderator: &Term,
-) -> Result<usize, Failure> {
-    let wanted = moderator.canonical();
-    plan.terms
-        .iter()
-        .enumerate()
-        .filter(|(_, t)| t.canonical() == wanted)
-        .find_map(|(t, _)| {
-            design.term_columns[t]
-                .clone()
-                .filter(|r| r.len() == 1)
-                .map(|r| r.start)
-        })
+fn moderator_column(design: &SampleDesign, interaction: &Interaction) -> Result<usize, Failure> {
+    let moderator = &interaction.moderator;
+    interaction
+        .moderator_term
+        .and_then(|t| design.term_columns[t].clone())
+        .filter(|r| r.len() == 1)
+        .map(|r| r.start)
         .ok_or_else(|| {
             Failure::Study(format!(
                 "the moderator `{}` of the interaction with the focus is not a one-column term of the models in sample `{}`, so its mean is unknown; give its value as `evaluate_at = {{ moderator = ... }}` in [report]",
@@ -276,8 +284,8 @@ pub fn model_effects(
         .flat_map(|&t| columns_of(t))
         .collect();
     let focus_count = wanted.len();
-    if let Some((t, _)) = &recipe.interaction {
-        wanted.extend(columns_of(*t));
+    if let Some(interaction) = &recipe.interaction {
+        wanted.extend(columns_of(interaction.product));
     }
     let positions: Option<Vec<usize>> = wanted
         .iter()
