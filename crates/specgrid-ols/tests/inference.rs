@@ -353,3 +353,43 @@ fn joint_test_leaves_out_a_model_whose_untracked_focus_was_dropped() {
     assert_eq!(t.models_left_out, vec![8]);
     assert_eq!(t.models_used, 8);
 }
+
+#[test]
+fn joint_test_across_parts_pools_models_and_shares_the_draws() {
+    // The same curve handed over as two parts on the same rows (keys = row numbers) must give
+    // exactly the single-design test: one weight vector per draw serves both parts, and the
+    // statistics pool every model. Exact equality, since the arithmetic is the same.
+    use specgrid_ols::inference::{joint_curve_test_across, joint_curve_test_from_fits, CurvePart};
+    let (design, models) = curve_design(11, 150, 0.3, 0.5);
+    let factor = SharedFactor::new_for_refits(&design).unwrap();
+    let specs: Vec<ModelSpec> = models.iter().map(|m| m.spec.clone()).collect();
+    let fits = factor.fit_many(&specs, &classical());
+    let opts = JointOptions {
+        draws: 120,
+        ..JointOptions::default()
+    };
+    let whole = joint_curve_test_from_fits(&factor, &models, &fits, &opts).unwrap();
+    let keys: Vec<u32> = (0..150).collect();
+    let parts = [
+        CurvePart {
+            factor: &factor,
+            models: &models[..3],
+            fits: &fits[..3],
+            keys: &keys,
+        },
+        CurvePart {
+            factor: &factor,
+            models: &models[3..],
+            fits: &fits[3..],
+            keys: &keys,
+        },
+    ];
+    let split = joint_curve_test_across(&parts, 150, &opts).unwrap();
+    assert_eq!(whole, split);
+    // A key outside the key count is refused, not read out of bounds.
+    let bad = [CurvePart {
+        keys: &keys,
+        ..parts[0]
+    }];
+    assert!(joint_curve_test_across(&bad, 100, &opts).is_err());
+}

@@ -154,50 +154,85 @@ pub fn joint_curve_test_from_fits(
     opts: &JointOptions,
 ) -> Result<JointTest, InferenceError> {
     let design = factor.design();
-    let groups = check_request(design, models, fits, opts)?;
-    let refit = OutcomeRefit::from_fits(factor, fits)?;
-    // A model enters when it was fitted and kept its focus column (an untracked focus can be
-    // dropped as collinear without refusing the model).
-    let usable = |i: usize| refit.kept(i).is_some_and(|k| k.contains(&models[i].focus));
-    let used: Vec<usize> = (0..models.len()).filter(|&i| usable(i)).collect();
-    if used.is_empty() {
+    let (keys, key_count): (Vec<u32>, usize) = match opts.cluster_dim {
+        None => ((0..design.x.nrows() as u32).collect(), design.x.nrows()),
+        Some(d) => {
+            let c = design.clusters.get(d).ok_or_else(|| {
+                InferenceError::Invalid(format!("no clustering dimension {d} in the design"))
+            })?;
+            (c.codes.clone(), c.count)
+        }
+    };
+    let part = CurvePart {
+        factor,
+        models,
+        fits,
+        keys: &keys,
+    };
+    joint_curve_test_across(std::slice::from_ref(&part), key_count, opts)
+}
+
+/// The models of one design that enter a curve spanning several designs.
+#[derive(Debug, Clone, Copy)]
+pub struct CurvePart<'p, 'f> {
+    /// The design's factor, from [`SharedFactor::new_for_refits`].
+    pub factor: &'p SharedFactor<'f>,
+    /// The design's curve models.
+    pub models: &'p [CurveModel],
+    /// Their fits on `factor`, one per model.
+    pub fits: &'p [Result<ModelFit, ModelError>],
+    /// The weight key of each design row, below the `key_count` of the call: rows with the same
+    /// key get the same multiplier in a draw, in every part. Data-file row numbers give
+    /// independent rows that stay paired across samples; cluster labels numbered over the whole
+    /// data file give clustered draws.
+    pub keys: &'p [u32],
+}
+
+/// The joint test over a curve whose models live on several designs (e.g. one per sample):
+/// each draw uses one weight vector over the keys, shared by all parts, and the curve
+/// statistics of a draw pool every part's models. With one part whose keys are its row
+/// numbers (or cluster codes) this is [`joint_curve_test_from_fits`]. `JointOptions::cluster_dim`
+/// is not read here: the keys carry the clustering. `models_left_out` indexes the parts' models
+/// laid end to end.
+pub fn joint_curve_test_across(
+    parts: &[CurvePart<'_, '_>],
+    key_count: usize,
+    opts: &JointOptions,
+) -> Result<JointTest, InferenceError> {
+    if opts.draws == 0 || !(opts.alpha > 0.0 && opts.alpha < 1.0) {
+        return Err(InferenceError::Invalid(
+            "the joint test needs at least one draw and a level alpha in (0, 1)".into(),
+        ));
+    }
+    let prepared = parts
+        .iter()
+        .map(|p| PreparedPart::new(p, key_count))
+        .collect::<Result<Vec<_>, _>>()?;
+    let mut models_left_out = Vec::new();
+    let mut offset = 0;
+    for (part, prep) in parts.iter().zip(&prepared) {
+        models_left_out.extend(
+            (0..part.models.len())
+                .filter(|i| !prep.used.contains(i))
+                .map(|i| i + offset),
+        );
+        offset += part.models.len();
+    }
+    let used_count: usize = prepared.iter().map(|p| p.used.len()).sum();
+    if used_count == 0 {
         return Err(InferenceError::Invalid(
             "no model of the curve could be fitted with its focus column".into(),
         ));
     }
-    let models_left_out = (0..models.len()).filter(|&i| !usable(i)).collect();
-    // Outcomes in use, and per outcome its projection on the union span and residual.
-    let mut outcomes: Vec<usize> = used.iter().map(|&i| models[i].spec.outcome).collect();
-    outcomes.sort_unstable();
-    outcomes.dedup();
-    let n = design.x.nrows();
-    let ys = Mat::from_fn(n, outcomes.len(), |i, j| design.y[(i, outcomes[j])]);
-    let observed_proj: Vec<Projected> = (0..outcomes.len())
-        .map(|o| refit.project(ys.subcols(o, 1)))
-        .collect();
-    let fitted = union_fit(&refit, ys.as_ref());
     let normal = Normal::standard();
-    let outcome_of: Vec<usize> = models
+    let observed_models: Vec<ModelStats> = prepared
         .iter()
-        .map(|m| {
-            outcomes
-                .iter()
-                .position(|&o| o == m.spec.outcome)
-                .unwrap_or(0)
-        })
-        .collect();
-    // Observed: per model estimate, p and z on the original outcomes.
-    let observed_models: Vec<ModelStats> = used
-        .iter()
-        .map(|&i| model_stats(&refit, &models[i], i, &observed_proj[outcome_of[i]], 0.0)[0])
+        .flat_map(|p| p.observed.iter().copied())
         .map(|s| with_z(s, &normal))
         .collect();
-    let mut observed_est = vec![0.0; models.len()];
-    for (s, &i) in observed_models.iter().zip(&used) {
-        observed_est[i] = s.estimate;
-    }
     let observed = summarise(&observed_models, opts.alpha);
-    // Draws, in fixed batches; per batch each outcome is projected once for all its models.
+    // Draws, in fixed batches; per batch and part each outcome is projected once for all its
+    // models. One weight vector per draw serves every part.
     let batches: Vec<(usize, usize)> = (0..opts.draws)
         .step_by(DRAW_BATCH)
         .map(|s| (s, (s + DRAW_BATCH).min(opts.draws)))
@@ -205,18 +240,26 @@ pub fn joint_curve_test_from_fits(
     let draws: Vec<CurveStats> = batches
         .par_iter()
         .flat_map_iter(|&(start, end)| {
-            let proj: Vec<Projected> = bootstrap_outcomes(&fitted, groups, opts, start, end)
-                .iter()
-                .map(|y| refit.project(y.as_ref()))
-                .collect();
+            let weights = draw_weights(key_count, opts, start, end);
             let mut per_draw: Vec<Vec<ModelStats>> = (start..end)
-                .map(|_| Vec::with_capacity(used.len()))
+                .map(|_| Vec::with_capacity(used_count))
                 .collect();
-            for &i in &used {
-                let stats =
-                    model_stats(&refit, &models[i], i, &proj[outcome_of[i]], observed_est[i]);
-                for (d, s) in stats.into_iter().enumerate() {
-                    per_draw[d].push(with_z(s, &normal));
+            for (part, prep) in parts.iter().zip(&prepared) {
+                let proj: Vec<Projected> = bootstrap_outcomes(&prep.fitted, part.keys, &weights)
+                    .iter()
+                    .map(|y| prep.refit.project(y.as_ref()))
+                    .collect();
+                for (u, &i) in prep.used.iter().enumerate() {
+                    let stats = model_stats(
+                        &prep.refit,
+                        &part.models[i],
+                        i,
+                        &proj[prep.outcome_of[i]],
+                        prep.observed[u].estimate,
+                    );
+                    for (d, s) in stats.into_iter().enumerate() {
+                        per_draw[d].push(with_z(s, &normal));
+                    }
                 }
             }
             per_draw
@@ -231,7 +274,7 @@ pub fn joint_curve_test_from_fits(
     };
     Ok(JointTest {
         draws: draws.len(),
-        models_used: used.len(),
+        models_used: used_count,
         models_left_out,
         dominant_sign: dominant(observed.median),
         observed,
@@ -243,24 +286,98 @@ pub fn joint_curve_test_from_fits(
     })
 }
 
-/// Validates the request; returns the weight groups (cluster codes and count) if any.
-fn check_request<'d>(
-    design: &'d crate::api::Design,
+/// What one part needs for every draw: its refit, the models in use, the union fit of each
+/// outcome, and the observed statistics.
+struct PreparedPart<'p> {
+    refit: OutcomeRefit<'p>,
+    /// Indices into the part's models that enter the curve.
+    used: Vec<usize>,
+    /// Per model: position of its outcome among the outcomes in use.
+    outcome_of: Vec<usize>,
+    fitted: UnionFit,
+    /// Observed statistics of the used models (z not yet applied), in `used` order.
+    observed: Vec<ModelStats>,
+}
+
+impl<'p> PreparedPart<'p> {
+    fn new(part: &CurvePart<'p, '_>, key_count: usize) -> Result<Self, InferenceError> {
+        let design = part.factor.design();
+        check_request(part.models, part.fits)?;
+        if part.keys.len() != design.x.nrows() {
+            return Err(InferenceError::Invalid(format!(
+                "{} weight keys given for a design of {} rows",
+                part.keys.len(),
+                design.x.nrows()
+            )));
+        }
+        if let Some(&k) = part.keys.iter().find(|&&k| k as usize >= key_count) {
+            return Err(InferenceError::Invalid(format!(
+                "weight key {k} is not below the key count {key_count}"
+            )));
+        }
+        let refit = OutcomeRefit::from_fits(part.factor, part.fits)?;
+        // A model enters when it was fitted and kept its focus column (an untracked focus can be
+        // dropped as collinear without refusing the model).
+        let used: Vec<usize> = (0..part.models.len())
+            .filter(|&i| {
+                refit
+                    .kept(i)
+                    .is_some_and(|k| k.contains(&part.models[i].focus))
+            })
+            .collect();
+        // Outcomes in use, and per outcome its projection on the union span and residual.
+        let mut outcomes: Vec<usize> = used.iter().map(|&i| part.models[i].spec.outcome).collect();
+        outcomes.sort_unstable();
+        outcomes.dedup();
+        let n = design.x.nrows();
+        let ys = Mat::from_fn(n, outcomes.len(), |i, j| design.y[(i, outcomes[j])]);
+        let observed_proj: Vec<Projected> = (0..outcomes.len())
+            .map(|o| refit.project(ys.subcols(o, 1)))
+            .collect();
+        let fitted = union_fit(&refit, ys.as_ref());
+        let outcome_of: Vec<usize> = part
+            .models
+            .iter()
+            .map(|m| {
+                outcomes
+                    .iter()
+                    .position(|&o| o == m.spec.outcome)
+                    .unwrap_or(0)
+            })
+            .collect();
+        let observed = used
+            .iter()
+            .map(|&i| {
+                model_stats(
+                    &refit,
+                    &part.models[i],
+                    i,
+                    &observed_proj[outcome_of[i]],
+                    0.0,
+                )[0]
+            })
+            .collect();
+        Ok(PreparedPart {
+            refit,
+            used,
+            outcome_of,
+            fitted,
+            observed,
+        })
+    }
+}
+
+/// Validates one part's request.
+fn check_request(
     models: &[CurveModel],
     fits: &[Result<ModelFit, ModelError>],
-    opts: &JointOptions,
-) -> Result<Option<(&'d [u32], usize)>, InferenceError> {
+) -> Result<(), InferenceError> {
     if fits.len() != models.len() {
         return Err(InferenceError::Invalid(format!(
             "{} fits given for {} curve models",
             fits.len(),
             models.len()
         )));
-    }
-    if opts.draws == 0 || !(opts.alpha > 0.0 && opts.alpha < 1.0) {
-        return Err(InferenceError::Invalid(
-            "the joint test needs at least one draw and a level alpha in (0, 1)".into(),
-        ));
     }
     for (i, m) in models.iter().enumerate() {
         if !m.spec.columns.contains(&m.focus) {
@@ -270,15 +387,7 @@ fn check_request<'d>(
             )));
         }
     }
-    match opts.cluster_dim {
-        None => Ok(None),
-        Some(d) => {
-            let c = design.clusters.get(d).ok_or_else(|| {
-                InferenceError::Invalid(format!("no clustering dimension {d} in the design"))
-            })?;
-            Ok(Some((&c.codes, c.count)))
-        }
-    }
+    Ok(())
 }
 
 /// Per outcome: (fitted values on the union span, residuals).
@@ -298,37 +407,30 @@ fn union_fit(refit: &OutcomeRefit<'_>, ys: faer::MatRef<'_, f64>) -> UnionFit {
     UnionFit { fitted, resid }
 }
 
-/// y* = ŷ_U + ê_U∘v for draws `start..end`, one n × (end − start) matrix per outcome.
-fn bootstrap_outcomes(
-    fit: &UnionFit,
-    groups: Option<(&[u32], usize)>,
-    opts: &JointOptions,
-    start: usize,
-    end: usize,
-) -> Vec<Mat<f64>> {
+/// The multipliers of draws `start..end`, one vector over the keys per draw.
+fn draw_weights(key_count: usize, opts: &JointOptions, start: usize, end: usize) -> Vec<Vec<f64>> {
+    (start..end)
+        .map(|d| {
+            let mut v = vec![0.0; key_count];
+            opts.weights.seeded(opts.seed, d as u64, &mut v);
+            v
+        })
+        .collect()
+}
+
+/// y* = ŷ_U + ê_U∘v for each draw's weights `v` (row i takes `v[keys[i]]`), one
+/// n × draws matrix per outcome.
+fn bootstrap_outcomes(fit: &UnionFit, keys: &[u32], weights: &[Vec<f64>]) -> Vec<Mat<f64>> {
     let n = fit.fitted.first().map_or(0, Vec::len);
-    let per = groups.map_or(n, |(_, g)| g);
-    let mut v = vec![0.0; per];
-    let mut out: Vec<Mat<f64>> = fit
-        .fitted
+    fit.fitted
         .iter()
-        .map(|_| Mat::zeros(n, end - start))
-        .collect();
-    for d in start..end {
-        opts.weights.seeded(opts.seed, d as u64, &mut v);
-        for (o, m) in out.iter_mut().enumerate() {
-            let (f, e) = (&fit.fitted[o], &fit.resid[o]);
-            let mut col = m.col_mut(d - start);
-            for i in 0..n {
-                let w = match groups {
-                    Some((codes, _)) => v[codes[i] as usize],
-                    None => v[i],
-                };
-                col[i] = f[i] + e[i] * w;
-            }
-        }
-    }
-    out
+        .zip(&fit.resid)
+        .map(|(f, e)| {
+            Mat::from_fn(n, weights.len(), |i, d| {
+                f[i] + e[i] * weights[d][keys[i] as usize]
+            })
+        })
+        .collect()
 }
 
 /// Model i refitted on each projected outcome vector: focus estimate minus `null_shift`, and

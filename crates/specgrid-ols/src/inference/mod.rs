@@ -13,7 +13,8 @@ mod wild_cluster;
 
 pub use gelbach::{gelbach, BlockContribution, ControlBlock, GelbachDecomposition};
 pub use joint::{
-    joint_curve_test, joint_curve_test_from_fits, CurveModel, CurveStats, JointOptions, JointTest,
+    joint_curve_test, joint_curve_test_across, joint_curve_test_from_fits, CurveModel, CurvePart,
+    CurveStats, JointOptions, JointTest,
 };
 pub use oster::{oster, OsterInputs, OsterResult};
 pub use refit::{OutcomeRefit, Projected, RefitBatch};
