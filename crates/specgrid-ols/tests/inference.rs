@@ -376,20 +376,99 @@ fn joint_test_across_parts_pools_models_and_shares_the_draws() {
             models: &models[..3],
             fits: &fits[..3],
             keys: &keys,
+            scales: &[],
         },
         CurvePart {
             factor: &factor,
             models: &models[3..],
             fits: &fits[3..],
             keys: &keys,
+            scales: &[],
         },
     ];
     let split = joint_curve_test_across(&parts, 150, &opts).unwrap();
     assert_eq!(whole, split);
+    // A common positive factor scales the median and its null range and leaves the p-values
+    // (which compare like with like) unchanged.
+    let twice = vec![2.0; models.len()];
+    let scaled = joint_curve_test_across(
+        &[CurvePart {
+            factor: &factor,
+            models: &models,
+            fits: &fits,
+            keys: &keys,
+            scales: &twice,
+        }],
+        150,
+        &opts,
+    )
+    .unwrap();
+    assert_eq!(scaled.observed.median, 2.0 * whole.observed.median);
+    assert_eq!(scaled.null_high.median, 2.0 * whole.null_high.median);
+    assert_eq!(
+        (scaled.p_median, scaled.p_share, scaled.p_stouffer),
+        (whole.p_median, whole.p_share, whole.p_stouffer)
+    );
     // A key outside the key count is refused, not read out of bounds.
     let bad = [CurvePart {
         keys: &keys,
         ..parts[0]
     }];
     assert!(joint_curve_test_across(&bad, 100, &opts).is_err());
+}
+
+#[test]
+fn union_fit_ignores_the_noise_direction_of_a_collinear_union_column() {
+    // A standardized copy of x next to x and the constant makes the union rank deficient (as
+    // a study with both the level and the standardized focus form does). The Householder
+    // reflector at that column is built from rounding noise; it must not enter the union's
+    // fitted values, or the joint test's null residuals vanish. Reference: the residual sum of
+    // squares of y on the independent columns by `fit_independent`.
+    let n = 400;
+    let base = random_design(77, n, 3, 1, 4, 3);
+    let x: Vec<f64> = (0..n).map(|i| base.x[(i, 1)]).collect();
+    let mean = x.iter().sum::<f64>() / n as f64;
+    let sd = (x.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1) as f64).sqrt();
+    let design = Design {
+        x: Mat::from_fn(n, 4, |i, j| match j {
+            0 => base.x[(i, 0)],
+            1 => x[i],
+            2 => (x[i] - mean) / sd,
+            _ => base.x[(i, 2)],
+        }),
+        y: Mat::from_fn(n, 1, |i, _| base.y[(i, 0)]),
+        x_names: vec!["1".into(), "x".into(), "z".into(), "w".into()],
+        y_names: vec!["y".into()],
+        clusters: vec![],
+    };
+    let factor = SharedFactor::new_for_refits(&design).unwrap();
+    let models = vec![
+        CurveModel::tracking(vec![0, 1, 3], 0, 1),
+        CurveModel::tracking(vec![0, 2, 3], 0, 2),
+    ];
+    let specs: Vec<ModelSpec> = models.iter().map(|m| m.spec.clone()).collect();
+    let fits = factor.fit_many(&specs, &classical());
+    let refit = OutcomeRefit::from_fits(&factor, &fits).unwrap();
+    let fitted = refit.union_fitted(design.y.as_ref());
+    let rss: f64 = (0..n)
+        .map(|i| (design.y[(i, 0)] - fitted[(i, 0)]).powi(2))
+        .sum();
+    let reference = fit_independent(
+        &design,
+        &ModelSpec {
+            columns: vec![0, 1, 3],
+            outcome: 0,
+            tracked: vec![1],
+        },
+        &classical(),
+    )
+    .unwrap();
+    let reference_rss = reference.resid_sd.powi(2) * reference.df_resid as f64;
+    assert!(close(rss, reference_rss, 1e-10), "{rss} vs {reference_rss}");
+    // And the null draws move the curve.
+    let test = joint_curve_test(&factor, &models, &classical(), &JointOptions::default()).unwrap();
+    assert!(
+        test.null_high.median - test.null_low.median > 1e-6,
+        "{test:?}"
+    );
 }

@@ -168,6 +168,7 @@ pub fn joint_curve_test_from_fits(
         models,
         fits,
         keys: &keys,
+        scales: &[],
     };
     joint_curve_test_across(std::slice::from_ref(&part), key_count, opts)
 }
@@ -186,6 +187,10 @@ pub struct CurvePart<'p, 'f> {
     /// independent rows that stay paired across samples; cluster labels numbered over the whole
     /// data file give clustered draws.
     pub keys: &'p [u32],
+    /// Optional factor per model (same length as `models`, or empty for 1) that puts its focus
+    /// coefficient on a common scale before the curve statistics are taken, e.g. 1/ȳ for a
+    /// proportional effect of a level-outcome model; a negative factor flips the model's sign.
+    pub scales: &'p [f64],
 }
 
 /// The joint test over a curve whose models live on several designs (e.g. one per sample):
@@ -225,9 +230,15 @@ pub fn joint_curve_test_across(
         ));
     }
     let normal = Normal::standard();
-    let observed_models: Vec<ModelStats> = prepared
+    let observed_models: Vec<ModelStats> = parts
         .iter()
-        .flat_map(|p| p.observed.iter().copied())
+        .zip(&prepared)
+        .flat_map(|(part, p)| {
+            p.used
+                .iter()
+                .zip(&p.observed)
+                .map(|(&i, &s)| scaled(s, part.scale(i)))
+        })
         .map(|s| with_z(s, &normal))
         .collect();
     let observed = summarise(&observed_models, opts.alpha);
@@ -258,7 +269,7 @@ pub fn joint_curve_test_across(
                         prep.observed[u].estimate,
                     );
                     for (d, s) in stats.into_iter().enumerate() {
-                        per_draw[d].push(with_z(s, &normal));
+                        per_draw[d].push(with_z(scaled(s, part.scale(i)), &normal));
                     }
                 }
             }
@@ -286,6 +297,22 @@ pub fn joint_curve_test_across(
     })
 }
 
+impl CurvePart<'_, '_> {
+    fn scale(&self, i: usize) -> f64 {
+        self.scales.get(i).copied().unwrap_or(1.0)
+    }
+}
+
+/// A model's statistics with its estimate on the common scale (the p-value is unchanged; the
+/// sign kept in `z` follows the scaled estimate).
+fn scaled(mut s: ModelStats, factor: f64) -> ModelStats {
+    s.estimate *= factor;
+    if factor < 0.0 {
+        s.z = -s.z;
+    }
+    s
+}
+
 /// What one part needs for every draw: its refit, the models in use, the union fit of each
 /// outcome, and the observed statistics.
 struct PreparedPart<'p> {
@@ -308,6 +335,13 @@ impl<'p> PreparedPart<'p> {
                 "{} weight keys given for a design of {} rows",
                 part.keys.len(),
                 design.x.nrows()
+            )));
+        }
+        if !part.scales.is_empty() && part.scales.len() != part.models.len() {
+            return Err(InferenceError::Invalid(format!(
+                "{} scale factors given for {} curve models",
+                part.scales.len(),
+                part.models.len()
             )));
         }
         if let Some(&k) = part.keys.iter().find(|&&k| k as usize >= key_count) {
@@ -397,7 +431,7 @@ struct UnionFit {
 }
 
 fn union_fit(refit: &OutcomeRefit<'_>, ys: faer::MatRef<'_, f64>) -> UnionFit {
-    let fitted_mat = refit.fitted(&refit.project(ys));
+    let fitted_mat = refit.union_fitted(ys);
     let (mut fitted, mut resid) = (Vec::new(), Vec::new());
     for j in 0..ys.ncols() {
         let f: Vec<f64> = fitted_mat.col(j).iter().copied().collect();

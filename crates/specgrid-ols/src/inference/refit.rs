@@ -19,6 +19,10 @@ use crate::small_qr::upper_inverse;
 
 use super::InferenceError;
 
+/// A union column (unit norm) whose part outside the span of the earlier ones is at most this
+/// is collinear with them; the engine's default collinearity tolerance.
+const COLLINEAR_PIVOT: f64 = 1e-10;
+
 /// Per-model factors kept for refits.
 #[derive(Debug, Clone)]
 struct RefitModel {
@@ -38,6 +42,14 @@ struct RefitModel {
 #[derive(Debug)]
 pub struct OutcomeRefit<'f> {
     basis: MatRef<'f, f64>,
+    /// Orthonormal basis, in the coordinates of `basis`, of the span of the union columns.
+    /// At a union column that is collinear with earlier ones the Householder reflector is
+    /// built from rounding noise, so `basis` then reaches beyond the union span (in one case
+    /// seen, exactly along an outcome's residual). The models' refits stay exact (each model's
+    /// columns lie in the span of `basis`), but the union's fitted values must use the span of
+    /// the columns themselves: the thin Q of R_X over the columns whose pivot is not
+    /// negligible (the others are combinations of earlier ones), see [`union_span`].
+    span: Mat<f64>,
     n: usize,
     models: Vec<Result<RefitModel, ModelError>>,
 }
@@ -101,8 +113,10 @@ impl<'f> OutcomeRefit<'f> {
                 Ok(prepare(r, rows, &kept, scales))
             })
             .collect();
+        let span = union_span(r.subcols(0, scales.len()), rows);
         Ok(OutcomeRefit {
             basis,
+            span,
             n: factor.design().x.nrows(),
             models: prepared,
         })
@@ -146,9 +160,20 @@ impl<'f> OutcomeRefit<'f> {
         Projected { c, out_rss }
     }
 
-    /// Fitted values on the union span, Q_X·c (n × d), of projected outcomes.
+    /// Fitted values on the union span, Q_X·c (n × d), of projected outcomes. With a
+    /// rank-deficient union use [`OutcomeRefit::union_fitted`]: the full basis then reaches
+    /// beyond the union span.
     pub fn fitted(&self, proj: &Projected) -> Mat<f64> {
         seq_product(self.basis, proj.c.as_ref())
+    }
+
+    /// The projection of outcomes `ys` (n × d) on the span of the union columns, also when
+    /// some union columns are collinear with others (see the `span` field).
+    pub fn union_fitted(&self, ys: MatRef<'_, f64>) -> Mat<f64> {
+        let c = seq_product(self.basis.transpose(), ys);
+        let inner = seq_product(self.span.transpose(), c.as_ref());
+        let within = seq_product(self.span.as_ref(), inner.as_ref());
+        seq_product(self.basis, within.as_ref())
     }
 
     /// Refits model `i` on projected outcomes; `Err` if the model was refused.
@@ -199,6 +224,31 @@ impl<'f> OutcomeRefit<'f> {
 pub struct Projected {
     c: Mat<f64>,
     out_rss: Vec<f64>,
+}
+
+/// Orthonormal basis (in the coordinates of the union basis, `rows` × r) of the span of the
+/// union columns R_X[:, j] (unit norm each), by Gram–Schmidt in column order with one
+/// re-orthogonalisation ("twice is enough", Giraud et al. 2005): a column whose part outside the
+/// span of the earlier kept ones is at most the engine's collinearity tolerance is left out.
+/// The pivots R[j, j] alone cannot tell: after a collinear column the Householder sequence may
+/// move a later column's new direction onto the noise reflector, leaving its own pivot at 0.
+fn union_span(r_x: MatRef<'_, f64>, rows: usize) -> Mat<f64> {
+    let mut kept: Vec<Vec<f64>> = Vec::new();
+    for j in 0..r_x.ncols() {
+        let mut v: Vec<f64> = (0..rows).map(|i| r_x[(i, j)]).collect();
+        for _ in 0..2 {
+            for q in &kept {
+                let d: f64 = q.iter().zip(&v).map(|(a, b)| a * b).sum();
+                v.iter_mut().zip(q).for_each(|(x, a)| *x -= d * a);
+            }
+        }
+        let norm = v.iter().map(|x| x * x).sum::<f64>().sqrt();
+        if norm > COLLINEAR_PIVOT {
+            v.iter_mut().for_each(|x| *x /= norm);
+            kept.push(v);
+        }
+    }
+    Mat::from_fn(rows, kept.len(), |i, q| kept[q][i])
 }
 
 /// Small QR of R_X[:, kept] and the pieces a refit needs.

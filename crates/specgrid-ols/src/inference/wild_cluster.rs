@@ -176,36 +176,34 @@ pub fn wild_cluster_test(
     let (gf, nf, kf) = (occupied as f64, n as f64, k as f64);
     let factor = gf / (gf - 1.0) * (nf - 1.0) / (nf - kf);
     let se = (factor * score.iter().map(|s| s * s).sum::<f64>()).sqrt();
-    // Restricted residual pieces ũ_y = M₋f y, ũ_x = M₋f x_f.
-    let others: Vec<usize> = (0..k).filter(|&j| j != f).collect();
-    let x_rest = Mat::from_fn(n, others.len(), |i, j| x[(i, others[j])]);
-    let xf: Vec<f64> = (0..n).map(|i| x[(i, f)]).collect();
-    let (uy, ux) = if others.is_empty() {
-        (yv.clone(), xf.clone())
-    } else {
-        let rest = LeastSquares::new(x_rest.as_ref()).ok_or_else(|| {
-            InferenceError::Invalid("the model's other columns are collinear".into())
-        })?;
-        (rest.residuals(&yv), rest.residuals(&xf))
-    };
+    // Restricted residual pieces ũ_y = M₋f y, ũ_x = M₋f x_f, without a second factorisation
+    // (Frisch–Waugh–Lovell): w = X(X'X)⁻¹e_f = ũ_x/(ũ_x'ũ_x) and a_f = 1/(ũ_x'ũ_x), so
+    // ũ_x = w/a_f; and M₋f y = b_f·ũ_x + e because the full residual e is orthogonal to X₋f.
+    let ux: Vec<f64> = w.iter().map(|wi| wi / a[f]).collect();
+    let uy: Vec<f64> = resid
+        .iter()
+        .zip(&ux)
+        .map(|(e, u)| e + estimate * u)
+        .collect();
     // A_h = X_h'w_h (k × G), and per cluster sums for ũ_y and ũ_x.
-    let mut amat = Mat::<f64>::zeros(k, g);
-    for i in 0..n {
-        let h = codes[i] as usize;
+    // Column by column, so each pass reads one contiguous column of X.
+    let cluster_sums = |u: &[f64]| -> Mat<f64> {
+        let mut out = Mat::<f64>::zeros(k, g);
         for j in 0..k {
-            amat[(j, h)] += x[(i, j)] * w[i];
-        }
-    }
-    let cmat = |u: &[f64]| -> (Vec<f64>, Mat<f64>) {
-        let mut s = vec![0.0; g];
-        let mut b = Mat::<f64>::zeros(k, g);
-        for i in 0..n {
-            let h = codes[i] as usize;
-            s[h] += w[i] * u[i];
-            for j in 0..k {
-                b[(j, h)] += x[(i, j)] * u[i];
+            let xj = x.col(j);
+            for i in 0..n {
+                out[(j, codes[i] as usize)] += xj[i] * u[i];
             }
         }
+        out
+    };
+    let amat = cluster_sums(&w);
+    let cmat = |u: &[f64]| -> (Vec<f64>, Mat<f64>) {
+        let mut s = vec![0.0; g];
+        for i in 0..n {
+            s[codes[i] as usize] += w[i] * u[i];
+        }
+        let b = cluster_sums(u);
         // C = diag(s) − A'·K·B.
         let mut c = seq_product(
             amat.transpose(),
