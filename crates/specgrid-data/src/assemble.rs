@@ -176,7 +176,10 @@ impl Assembly {
             ErrorChoice::Hc1 => Covariance::Hc1,
             ErrorChoice::Hc2 => Covariance::Hc2,
             ErrorChoice::Hc3 => Covariance::Hc3,
-            ErrorChoice::Cluster { column } => Covariance::Cluster { dim: dim(column)? },
+            // The wild bootstrap replaces the p-value and interval of the CR1 errors.
+            ErrorChoice::Cluster { column } | ErrorChoice::WildCluster { column, .. } => {
+                Covariance::Cluster { dim: dim(column)? }
+            }
             ErrorChoice::TwoWayCluster { first, second } => Covariance::TwoWayCluster {
                 first: dim(first)?,
                 second: dim(second)?,

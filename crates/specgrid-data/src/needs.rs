@@ -1,7 +1,7 @@
 //! What the plan needs from the data file: which source columns, and whether each is used as a
 //! number (and so must hold only numbers).
 
-use specgrid_study::{Condition, ErrorChoice, Plan, Term, Value};
+use specgrid_study::{Condition, Plan, Term, Value};
 
 /// One needed source column and how the plan uses it.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -63,24 +63,26 @@ fn term_columns(term: &Term, add: &mut impl FnMut(&str, bool)) {
     }
 }
 
-/// Clustering columns in the order the plan's error choices first name them; this order is the
-/// index of each clustering dimension in every design's `clusters`.
+/// Clustering columns in the order the plan's error choices first name them, then the joint
+/// test's clustering column; this order is the index of each clustering dimension in every
+/// design's `clusters`.
 pub fn cluster_columns(plan: &Plan) -> Vec<String> {
     let mut out: Vec<String> = Vec::new();
-    let mut add = |c: &String| {
-        if !out.contains(c) {
-            out.push(c.clone());
+    let mut add = |c: &str| {
+        if !out.iter().any(|o| o == c) {
+            out.push(c.to_string());
         }
     };
     for choice in &plan.errors {
-        match choice {
-            ErrorChoice::Cluster { column } => add(column),
-            ErrorChoice::TwoWayCluster { first, second } => {
-                add(first);
-                add(second);
-            }
-            _ => {}
-        }
+        choice.cluster_columns().into_iter().for_each(&mut add);
+    }
+    if let Some(column) = plan
+        .inference
+        .joint_test
+        .as_ref()
+        .and_then(|j| j.cluster.as_deref())
+    {
+        add(column);
     }
     out
 }

@@ -221,6 +221,35 @@ impl Layout {
             .collect()
     }
 
+    /// Term numbers of the focus form a choice vector takes.
+    pub fn focus_terms(&self, choices: &[usize]) -> &[usize] {
+        &self.focus_terms[choices[self.focus_dim]]
+    }
+
+    /// Per control block, in file order, the term numbers it brings under a choice vector
+    /// (empty when the block is out), before removing terms an earlier place already brought.
+    pub fn chosen_block_terms(&self, choices: &[usize]) -> Vec<&[usize]> {
+        self.block_terms
+            .iter()
+            .zip(&self.blocks)
+            .map(|(lists, source)| -> &[usize] {
+                match *source {
+                    BlockSource::Always => &lists[0],
+                    BlockSource::Optional { dim } if choices[dim] == 1 => &lists[0],
+                    BlockSource::Nested { dim, step } if choices[dim] >= step => &lists[0],
+                    BlockSource::Alternatives { dim, none_first } => {
+                        match (none_first, choices[dim]) {
+                            (true, 0) => &[],
+                            (true, c) => &lists[c - 1],
+                            (false, c) => &lists[c],
+                        }
+                    }
+                    _ => &[],
+                }
+            })
+            .collect()
+    }
+
     /// The model a choice vector describes.
     pub fn content(&self, choices: &[usize]) -> ModelContent {
         let focus = &self.focus_terms[choices[self.focus_dim]];
@@ -235,18 +264,7 @@ impl Layout {
             }
         };
         add(focus, &mut terms);
-        for (lists, source) in self.block_terms.iter().zip(&self.blocks) {
-            let chosen: &[usize] = match *source {
-                BlockSource::Always => &lists[0],
-                BlockSource::Optional { dim } if choices[dim] == 1 => &lists[0],
-                BlockSource::Nested { dim, step } if choices[dim] >= step => &lists[0],
-                BlockSource::Alternatives { dim, none_first } => match (none_first, choices[dim]) {
-                    (true, 0) => &[],
-                    (true, c) => &lists[c - 1],
-                    (false, c) => &lists[c],
-                },
-                _ => &[],
-            };
+        for chosen in self.chosen_block_terms(choices) {
             add(chosen, &mut terms);
         }
         let tracked = terms

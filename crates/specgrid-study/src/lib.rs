@@ -4,6 +4,7 @@
 //! column; [`plan`] expands the study into the models to estimate; [`count_grid`] gives the grid
 //! sizes without building models (for huge grids).
 
+mod blocks;
 mod grid;
 mod ids;
 mod kept;
@@ -14,6 +15,7 @@ mod read;
 mod study;
 mod verdict;
 
+pub use blocks::{BlockResolver, BlockTerms};
 pub use plan::*;
 pub use planner::{count_grid, plan, GridCount};
 pub use problem::StudyProblem;

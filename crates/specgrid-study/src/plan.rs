@@ -206,6 +206,35 @@ pub enum ErrorChoice {
         /// Second clustering column.
         second: String,
     },
+    /// One-way cluster-robust errors whose p-value and confidence interval come from the wild
+    /// cluster bootstrap-t with the null imposed (for few clusters).
+    WildCluster {
+        /// Column holding cluster identifiers.
+        column: String,
+        /// Distribution of the bootstrap multipliers.
+        weights: BootstrapDraws,
+        /// Number of bootstrap draws (all sign patterns are used instead when there are fewer).
+        draws: usize,
+    },
+}
+
+/// Distribution of wild-bootstrap multipliers.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum BootstrapDraws {
+    /// ±1 with equal probability.
+    #[default]
+    Rademacher,
+    /// Webb's six-point distribution, for very few clusters.
+    Webb,
+}
+
+impl BootstrapDraws {
+    /// Every distribution with the word the study file uses for it.
+    pub const WORDS: [(&'static str, BootstrapDraws); 2] = [
+        ("rademacher", BootstrapDraws::Rademacher),
+        ("webb", BootstrapDraws::Webb),
+    ];
 }
 
 impl ErrorChoice {
@@ -220,8 +249,64 @@ impl ErrorChoice {
             ErrorChoice::Hc3 => "hc3".into(),
             ErrorChoice::Cluster { column } => format!("cluster:{column}"),
             ErrorChoice::TwoWayCluster { first, second } => format!("cluster:{first}+{second}"),
+            ErrorChoice::WildCluster {
+                column, weights, ..
+            } => match weights {
+                BootstrapDraws::Rademacher => format!("wild:{column}"),
+                BootstrapDraws::Webb => format!("wild-webb:{column}"),
+            },
         }
     }
+
+    /// The clustering columns the choice reads.
+    pub fn cluster_columns(&self) -> Vec<&str> {
+        match self {
+            ErrorChoice::Cluster { column } | ErrorChoice::WildCluster { column, .. } => {
+                vec![column.as_str()]
+            }
+            ErrorChoice::TwoWayCluster { first, second } => vec![first.as_str(), second.as_str()],
+            _ => Vec::new(),
+        }
+    }
+}
+
+/// What the study's `[inference]` table asks for beyond each model's own standard errors.
+#[derive(Debug, Clone, PartialEq, Default, serde::Serialize)]
+pub struct InferenceSettings {
+    /// Control blocks (by name) whose terms stay in the short model of every model, next to the
+    /// focus terms, the intercept and the model's absorbed effects and weights.
+    pub short_model: Vec<String>,
+    /// The joint test over the whole curve, when asked for.
+    pub joint_test: Option<JointTestSettings>,
+    /// Coefficient-stability bounds per model, when asked for.
+    pub stability: Option<StabilitySettings>,
+    /// The decomposition of the focus movement over control blocks, when asked for.
+    pub decomposition: Option<DecompositionSettings>,
+}
+
+/// Settings of the joint test over the whole curve.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct JointTestSettings {
+    /// Bootstrap draws.
+    pub draws: usize,
+    /// Draw one multiplier per level of this column (rows of one level move together).
+    pub cluster: Option<String>,
+    /// Distribution of the multipliers.
+    pub weights: BootstrapDraws,
+}
+
+/// Settings of the coefficient-stability bounds.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct StabilitySettings {
+    /// R_max as a multiple of each long model's R² (capped at 1).
+    pub r_max_factor: f64,
+}
+
+/// Settings of the decomposition.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct DecompositionSettings {
+    /// The long model as an option index per dimension (parallel to [`Plan::dimensions`]).
+    pub long_model: Vec<usize>,
 }
 
 /// Which rows a model uses.
@@ -402,6 +487,8 @@ pub struct Plan {
     pub factorisations: usize,
     /// The models to estimate, in a deterministic order.
     pub models: Vec<PlannedModel>,
+    /// Inference across the grid asked for by `[inference]`.
+    pub inference: InferenceSettings,
 }
 
 impl Transform {

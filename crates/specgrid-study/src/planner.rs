@@ -192,6 +192,7 @@ fn build(
         title: study.title.clone(),
         focus_column: study.focus.column.clone(),
         report: study.report.clone(),
+        inference: study.inference.clone(),
         data_path: study.data_path.clone(),
         seed: study.seed,
         dimensions: layout.dimensions.clone(),

@@ -3,7 +3,9 @@
 
 use std::path::PathBuf;
 
-use crate::plan::{ErrorChoice, OutcomeForm, ReportSettings, RowPolicy, Sample, Term};
+use crate::plan::{
+    ErrorChoice, InferenceSettings, OutcomeForm, ReportSettings, RowPolicy, Sample, Term,
+};
 use crate::problem::Source;
 use crate::verdict::Verdict;
 
@@ -42,6 +44,8 @@ pub struct Study {
     pub verdict: Option<Verdict>,
     /// What the report shows (effect scale, evaluation values, baseline).
     pub report: ReportSettings,
+    /// Inference across the grid (`[inference]`).
+    pub inference: InferenceSettings,
     /// The file text, to place problems found while planning.
     pub(crate) source: Source,
     /// Byte offsets of a few places that planning problems point at.

@@ -73,6 +73,7 @@ pub fn plan(
         title: "orchard test".into(),
         focus_column: String::new(),
         report: Default::default(),
+        inference: Default::default(),
         data_path: path.to_path_buf(),
         seed: 1,
         dimensions: vec![Dimension {

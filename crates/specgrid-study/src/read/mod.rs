@@ -1,6 +1,7 @@
 //! Reading a study file: TOML with positions → a checked [`Study`], or every problem at once.
 
 mod forms;
+mod inference;
 mod report;
 mod samples;
 mod sections;
@@ -19,7 +20,16 @@ pub(crate) use values::Reader;
 
 /// Top-level tables a study file may have.
 const TOP_LEVEL: &[&str] = &[
-    "study", "outcome", "focus", "controls", "samples", "errors", "grid", "report", "verdict",
+    "study",
+    "outcome",
+    "focus",
+    "controls",
+    "samples",
+    "errors",
+    "grid",
+    "report",
+    "verdict",
+    "inference",
 ];
 
 /// Read and check a study file. Returns every problem found, sorted by position, rather than

@@ -7,7 +7,7 @@ use toml::de::DeTable;
 
 use super::forms::{read_form, read_terms, Form, FormKind};
 use super::values::{Reader, Val};
-use super::{report, samples, settings, verdict};
+use super::{inference, report, samples, settings, verdict};
 use crate::plan::{OutcomeForm, RowPolicy, Term, Transform};
 use crate::problem::suggestion;
 use crate::study::{
@@ -41,6 +41,7 @@ pub(crate) fn read_study(r: &mut Reader<'_>, doc: &DeTable<'_>) -> Option<Study>
         errors.as_ref().map(|e| e.0.as_slice()),
     );
     let report = report::read_report(r, doc.get("report"));
+    let inference = inference::read_inference(r, doc.get("inference"));
 
     let header = settings?;
     let (grid, skips, spots) = grid?;
@@ -62,6 +63,7 @@ pub(crate) fn read_study(r: &mut Reader<'_>, doc: &DeTable<'_>) -> Option<Study>
         grid,
         verdict: verdict?,
         report: Default::default(),
+        inference: Default::default(),
         source: r.source().clone(),
         spots: Spots { ..spots },
     };
@@ -78,6 +80,7 @@ pub(crate) fn read_study(r: &mut Reader<'_>, doc: &DeTable<'_>) -> Option<Study>
     }
     study.grid.skip = settings::check_skips(r, &study, skips)?;
     study.report = report::check_report(r, &study, report?)?;
+    study.inference = inference::check_inference(r, &study, inference?)?;
     Some(study)
 }
 

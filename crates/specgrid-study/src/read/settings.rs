@@ -104,6 +104,7 @@ fn error_choice(r: &mut Reader<'_>, v: &Val<'_>, what: &str) -> Option<ErrorChoi
                 None
             }
         },
+        DeValue::Table(t) if t.contains_key("wild_bootstrap") => wild(r, t, what),
         DeValue::Table(t) => {
             r.check_keys(t, &["cluster"], what);
             let c = r.required(t, "cluster", v.span().start, what)?;
@@ -121,6 +122,29 @@ fn error_choice(r: &mut Reader<'_>, v: &Val<'_>, what: &str) -> Option<ErrorChoi
             None
         }
     }
+}
+
+/// Draws of the wild cluster bootstrap when the study does not say (common practice: enough
+/// that the simulation error of a p-value near 0.05 is about 0.002).
+pub const DEFAULT_WILD_DRAWS: usize = 9_999;
+
+/// `{ wild_bootstrap = "COLUMN", weights = "rademacher" | "webb", draws = N }`.
+fn wild(r: &mut Reader<'_>, t: &toml::de::DeTable<'_>, what: &str) -> Option<ErrorChoice> {
+    r.check_keys(t, &["wild_bootstrap", "weights", "draws"], what);
+    let column = r.name(&t["wild_bootstrap"], &format!("`wild_bootstrap` of {what}"))?;
+    let weights = match t.get("weights") {
+        Some(w) => super::inference::bootstrap_draws(r, w, &format!("`weights` of {what}"))?,
+        None => Default::default(),
+    };
+    let draws = match t.get("draws") {
+        Some(d) => r.integer_in(d, &format!("`draws` of {what}"), 99, 1_000_000)? as usize,
+        None => DEFAULT_WILD_DRAWS,
+    };
+    Some(ErrorChoice::WildCluster {
+        column,
+        weights,
+        draws,
+    })
 }
 
 fn cluster(r: &mut Reader<'_>, c: &Val<'_>, what: &str) -> Option<ErrorChoice> {
