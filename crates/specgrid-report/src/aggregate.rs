@@ -97,6 +97,7 @@ pub fn summarize(input: &ReportInput) -> Result<Summary, ReportError> {
         decisions: decision_influence(input),
         diagnostics: diagnostics(input),
         cautions: cautions(input),
+        across_grid: input.across_grid.clone(),
     })
 }
 
@@ -160,6 +161,9 @@ pub fn choices_of(input: &ReportInput, m: &ModelEntry) -> Vec<Choice> {
 
 /// Whether an effect is significant at `alpha` (two-sided t test of zero); `None` without SE.
 pub fn significance(effect: &Effect, alpha: f64) -> Option<bool> {
+    if let Some(p) = effect.p_value.filter(|p| p.is_finite()) {
+        return Some(p < alpha);
+    }
     let se = effect.std_error?;
     if se > 0.0 && se.is_finite() {
         Some(two_sided_p(effect.estimate / se, effect.df) < alpha)

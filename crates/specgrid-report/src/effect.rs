@@ -148,6 +148,11 @@ pub struct Effect {
     pub proportional_change: Option<Derived>,
     /// Quadratic focus: the turning point −(b₁ + b_xz·z)/(2·b₂) in focus units.
     pub turning_point: Option<Derived>,
+    /// Two-sided p-value of "effect = 0" when it comes from elsewhere than the t test of
+    /// `estimate / std_error` (the wild cluster bootstrap; or the stored value when re-read);
+    /// significance then uses it. `None` means the t test.
+    #[serde(skip)]
+    pub p_value: Option<f64>,
 }
 
 impl Effect {
@@ -160,6 +165,7 @@ impl Effect {
             df,
             proportional_change: None,
             turning_point: None,
+            p_value: None,
         }
     }
 }
@@ -238,6 +244,7 @@ pub fn effect(inputs: &EffectInputs<'_>, scale: Scale) -> Result<Effect, EffectE
         df: inputs.df,
         proportional_change: proportional_change(inputs),
         turning_point: turning_point(inputs),
+        p_value: None,
     })
 }
 

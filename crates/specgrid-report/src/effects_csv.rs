@@ -62,7 +62,7 @@ pub fn render(report: &Report) -> String {
                 cell(f.std_error),
                 cell(half.map(|h| f.estimate - h)),
                 cell(half.map(|h| f.estimate + h)),
-                cell(se.map(|s| two_sided_p(f.estimate / s, f.df))),
+                cell(f.p_value.or(se.map(|s| two_sided_p(f.estimate / s, f.df)))),
                 cell(Some(f.df)),
                 cell(f.proportional_change.map(|d| d.value)),
                 cell(f.proportional_change.and_then(|d| d.std_error)),
@@ -130,6 +130,7 @@ pub fn parse(text: &str) -> Result<StoredEffects, ReportError> {
             df: number(7)?.unwrap_or(f64::INFINITY),
             proportional_change: derived(8, 9)?,
             turning_point: derived(10, 11)?,
+            p_value: number(6)?,
         };
         out.entry(record.get(0).unwrap_or("").to_string())
             .or_default()

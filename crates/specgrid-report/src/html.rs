@@ -68,6 +68,7 @@ pub fn render(report: &Report) -> String {
     h.push_str(&aggregate_table(report));
     h.push_str("<h2>Diagnostics</h2>\n");
     h.push_str(&diagnostics(report));
+    h.push_str(&crate::across_grid::html_section(s.across_grid.as_ref()));
     h.push_str("<h2>Baseline model: residuals against fitted values</h2>\n");
     h.push_str(&format!(
         "<p>Baseline model <code>{}</code> ({}): {}.</p>\n",

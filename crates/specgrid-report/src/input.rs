@@ -78,4 +78,6 @@ pub struct ReportInput {
     pub data_fingerprint: String,
     /// (fitted, residual) pairs of the baseline model, for the residual scatter.
     pub baseline_residuals: Option<Vec<(f64, f64)>>,
+    /// Inference across the grid, when the study asked for it.
+    pub across_grid: Option<crate::AcrossGrid>,
 }

@@ -26,6 +26,7 @@
 
 #![warn(missing_docs)]
 
+mod across_grid;
 mod aggregate;
 mod comparison;
 mod comparison_html;
@@ -45,6 +46,9 @@ mod text;
 
 use std::path::Path;
 
+pub use across_grid::{
+    AcrossGrid, BlockPart, DecompositionResult, JointTestResult, StabilityResult,
+};
 pub use aggregate::{baseline_index, significance, summarize, CAUTIONS, SUMMARY_FORMAT};
 pub use comparison::{
     compare, AggregateChange, Comparison, ModelChange, Tolerance, COMPARISON_FORMAT,

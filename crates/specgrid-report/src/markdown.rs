@@ -102,7 +102,11 @@ The specification curve is drawn in `report.html`; every figure is explained in 
             num(r.median, 3)
         ));
     }
-    m.push_str("\n\n## Cautions\n\n");
+    m.push_str("\n\n");
+    m.push_str(&crate::across_grid::markdown_section(
+        s.across_grid.as_ref(),
+    ));
+    m.push_str("## Cautions\n\n");
     for c in &s.cautions {
         m.push_str(&format!("- {c}\n"));
     }

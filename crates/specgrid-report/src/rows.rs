@@ -38,6 +38,8 @@ pub struct ResultRow {
     pub resid_sd: Option<f64>,
     /// `het_test_p_value`.
     pub het_test_p_value: Option<f64>,
+    /// `p_value` (the wild bootstrap's for a wild-bootstrap choice).
+    pub p_value: Option<f64>,
     /// `outcome`.
     pub outcome: String,
     /// `status` (`ok` or `failed`).
@@ -165,11 +167,10 @@ impl ReportInput {
                         .into(),
                 )
             })?;
-            models[i].effects[e] = Some(Effect::coefficient(
-                estimate,
-                r.std_error,
-                r.df.unwrap_or(f64::INFINITY),
-            ));
+            let mut effect =
+                Effect::coefficient(estimate, r.std_error, r.df.unwrap_or(f64::INFINITY));
+            effect.p_value = r.p_value;
+            models[i].effects[e] = Some(effect);
         }
         let mut terms: Vec<&String> = lead_term.iter().collect();
         terms.sort();
@@ -191,6 +192,7 @@ impl ReportInput {
             study_text: header.study_text,
             data_fingerprint: header.data_fingerprint,
             baseline_residuals: None,
+            across_grid: None,
         })
     }
 }

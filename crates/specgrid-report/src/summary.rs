@@ -30,6 +30,9 @@ pub struct Summary {
     pub diagnostics: Diagnostics,
     /// Cautions printed with every report.
     pub cautions: Vec<String>,
+    /// Inference across the grid (`[inference]` in the study), absent when not asked for.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub across_grid: Option<crate::AcrossGrid>,
 }
 
 /// How many models the grid had and how many gave numbers.

@@ -107,6 +107,9 @@ pub fn render(report: &Report) -> String {
         ));
     }
     out.push_str("\n\n");
+    out.push_str(&crate::across_grid::terminal_section(
+        s.across_grid.as_ref(),
+    ));
     for c in &s.cautions {
         out.push_str(&format!("• {c}\n"));
     }

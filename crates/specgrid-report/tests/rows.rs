@@ -20,6 +20,7 @@ fn row(id: &str, choice: &str, errors: &str, term: &str, est: f64, se: f64) -> R
         r_squared: Some(0.3),
         resid_sd: Some(1.0),
         het_test_p_value: Some(0.5),
+        p_value: None,
         outcome: "y".into(),
         status: "ok".into(),
         message: String::new(),

@@ -73,6 +73,7 @@ pub fn small_grid() -> ReportInput {
         study_text: "[study]\ntitle = \"Small grid\"\n".into(),
         data_fingerprint: "0123abcd".into(),
         baseline_residuals: Some(vec![(1.0, 0.5), (2.0, -0.25), (3.0, 0.1)]),
+        across_grid: None,
     }
 }
 
@@ -137,5 +138,6 @@ pub fn big_grid(per_dim: usize) -> ReportInput {
                 .map(|i| (i as f64 / 100.0, ((i * 13) % 17) as f64 / 17.0 - 0.5))
                 .collect(),
         ),
+        across_grid: None,
     }
 }

@@ -78,6 +78,8 @@ pub fn read_models_csv(
             r_squared: f(r2),
             resid_sd: f(sd),
             het_test_p_value: f(het),
+            // The report's t test decides significance, as the reference scripts do.
+            p_value: None,
             outcome: s(outcome),
             status: s(status),
             message: s(message),
