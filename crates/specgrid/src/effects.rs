@@ -325,7 +325,15 @@ pub fn model_effects(
                 df: fit.coefficients[positions[0]].inference[e].df,
             };
             match effect(&inputs, scale) {
-                Ok(value) => Some(value),
+                Ok(mut value) => {
+                    // One focus coefficient and no interaction: the effect is that coefficient
+                    // times a fixed factor, so "effect = 0" is "coefficient = 0" and the
+                    // coefficient's own p-value (the wild bootstrap's, for that choice) holds.
+                    if focus_count == 1 && interaction.is_none() {
+                        value.p_value = Some(fit.coefficients[positions[0]].inference[e].p_value);
+                    }
+                    Some(value)
+                }
                 Err(why) => {
                     problems.push(why.to_string());
                     None

@@ -1,5 +1,6 @@
 //! The `specgrid` binary: study file → planner → data → shared-matrix OLS → results.
 
+mod across_grid;
 mod cli;
 mod commands;
 mod data_guard;
@@ -13,6 +14,7 @@ mod results;
 mod results_stream;
 mod timings;
 mod verdict;
+mod wild;
 
 use std::process::ExitCode;
 

@@ -227,6 +227,7 @@ impl ResultsTable {
                 estimate: self.values[i].estimate,
                 std_error: self.values[i].std_error,
                 df: self.values[i].df,
+                p_value: self.values[i].p_value,
                 n_obs: self.stats[i].n_obs,
                 n_params: self.stats[i].n_params,
                 r_squared: self.stats[i].r_squared,

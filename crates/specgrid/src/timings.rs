@@ -9,7 +9,15 @@ use std::sync::Mutex;
 use std::time::{Duration, Instant};
 
 /// Phases in the order they are printed; anything else a run does is reported as `other`.
-pub const PHASES: [&str; 6] = ["plan", "load", "factor", "fit", "write", "report"];
+pub const PHASES: [&str; 7] = [
+    "plan",
+    "load",
+    "factor",
+    "fit",
+    "inference",
+    "write",
+    "report",
+];
 
 static SPENT: Mutex<[f64; PHASES.len()]> = Mutex::new([0.0; PHASES.len()]);
 

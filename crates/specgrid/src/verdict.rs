@@ -220,6 +220,7 @@ mod tests {
             study_text: String::new(),
             data_fingerprint: String::new(),
             baseline_residuals: None,
+            across_grid: None,
         })
         .unwrap()
     }

@@ -50,6 +50,46 @@ pub struct Extras {
     pub effects: Option<StoredEffects>,
     /// (fitted, residual) pairs of the baseline model.
     pub baseline_residuals: Option<Vec<(f64, f64)>>,
+    /// Inference across the grid, when the study asked for it.
+    pub across_grid: Option<specgrid_report::AcrossGrid>,
+}
+
+/// Name of the file holding the inference across the grid (for re-rendering).
+pub const ACROSS_GRID_FILE: &str = "inference.json";
+/// Name of the file holding the per-model stability bounds.
+pub const STABILITY_FILE: &str = "stability.csv";
+
+/// Writes `inference.json` and, when computed, `stability.csv` into the staging folder.
+pub fn write_across_grid(
+    staging: &crate::output::Staging,
+    out: &crate::across_grid::AcrossGridOutput,
+) -> Result<(), Failure> {
+    let json = serde_json::to_string_pretty(&out.summary)
+        .map_err(|e| Failure::Output(format!("{ACROSS_GRID_FILE}: {e}")))?;
+    let path = staging.file(ACROSS_GRID_FILE);
+    fs::write(&path, json + "\n")
+        .map_err(|e| Failure::Output(format!("{}: {e}", path.display())))?;
+    if out.summary.stability.is_some() {
+        let mut text = String::from(
+            "model_id,short_estimate,long_estimate,short_r_squared,long_r_squared,r_max,delta_for_zero,beta_star\n",
+        );
+        for r in &out.stability_rows {
+            text.push_str(&format!(
+                "{},{:?},{:?},{:?},{:?},{:?},{:?},{:?}\n",
+                r.model_id,
+                r.short_estimate,
+                r.long_estimate,
+                r.short_r2,
+                r.long_r2,
+                r.r_max,
+                r.delta_for_zero,
+                r.beta_star
+            ));
+        }
+        let path = staging.file(STABILITY_FILE);
+        fs::write(&path, text).map_err(|e| Failure::Output(format!("{}: {e}", path.display())))?;
+    }
+    Ok(())
 }
 
 /// Name of the file holding the baseline model's (fitted, residual) pairs.
@@ -106,6 +146,7 @@ fn build(
         input.set_effects(scale, record.effect_label.clone(), effects);
     }
     input.baseline_residuals = extras.baseline_residuals;
+    input.across_grid = extras.across_grid;
     Report::build(input).map_err(|e| Failure::Output(format!("cannot build the report: {e}")))
 }
 
@@ -156,8 +197,22 @@ fn read_folder(dir: &Path) -> Result<(RunRecord, String, Vec<ResultRow>, Extras)
     let extras = Extras {
         effects,
         baseline_residuals: read_residuals(&dir.join(RESIDUALS_FILE))?,
+        across_grid: read_across_grid(&dir.join(ACROSS_GRID_FILE))?,
     };
     Ok((record, study_text, rows, extras))
+}
+
+/// Reads `inference.json` back; a folder without it (no `[inference]`) has none.
+fn read_across_grid(path: &Path) -> Result<Option<specgrid_report::AcrossGrid>, Failure> {
+    let Ok(text) = fs::read_to_string(path) else {
+        return Ok(None);
+    };
+    serde_json::from_str(&text).map(Some).map_err(|e| {
+        Failure::Data(format!(
+            "{}: {e}; the file is damaged, re-run the study",
+            path.display()
+        ))
+    })
 }
 
 /// Writes the baseline model's (fitted, residual) pairs, shortest round-trip decimals.
@@ -230,6 +285,7 @@ fn read_rows(path: &Path, record: &RunRecord) -> Result<Vec<ResultRow>, Failure>
         .collect::<Result<_, _>>()?;
     let (ids, errors, terms) = (text("model_id")?, text("errors")?, text("term")?);
     let (estimate, std_error, df) = (float("estimate")?, float("std_error")?, float("df")?);
+    let p_value = float("p_value")?;
     let (n_obs, n_params) = (count("n_obs")?, count("n_params")?);
     let (r2, resid_sd, het) = (
         float("r_squared")?,
@@ -246,6 +302,7 @@ fn read_rows(path: &Path, record: &RunRecord) -> Result<Vec<ResultRow>, Failure>
             estimate: estimate[i],
             std_error: std_error[i],
             df: df[i],
+            p_value: p_value[i],
             n_obs: n_obs[i],
             n_params: n_params[i],
             r_squared: r2[i],

@@ -79,6 +79,7 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         }
     }
     let fit_options = fit_options(&plan, &assembly)?;
+    crate::wild::check_cluster_counts(&plan, &fit_options, &assembly.designs)?;
     let staging = Staging::begin(&options.out)?;
     let written_models = estimate_and_write(
         &plan,
@@ -95,6 +96,7 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         effects: converted,
         residuals,
         failed,
+        ..
     } = written_models;
     if let Some(pairs) = &residuals {
         report::write_residuals(&staging.file(report::RESIDUALS_FILE), pairs)?;
@@ -127,9 +129,24 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
     let record_json = serde_json::to_string_pretty(&record)
         .map_err(|e| Failure::Output(format!("run.json: {e}")))?;
     write_text(&staging.file("run.json"), &record_json)?;
+    let across = time("inference", || {
+        crate::across_grid::run(
+            &study,
+            &plan,
+            &data,
+            &assembly.designs,
+            &fit_options,
+            converted.as_ref(),
+            &plan.errors[0].label(),
+        )
+    })?;
+    if let Some(out) = &across {
+        report::write_across_grid(&staging, out)?;
+    }
     let extras = report::Extras {
         effects: converted,
         baseline_residuals: residuals,
+        across_grid: across.map(|a| a.summary),
     };
     let terminal = time("report", || {
         report::render(&record, study_text, &report_rows, extras, staging.dir())
@@ -265,6 +282,8 @@ struct ChunkedResults {
     residuals: Option<Vec<(f64, f64)>>,
     /// Models that failed.
     failed: usize,
+    /// (model, coefficient, choice) triples the wild bootstrap could not serve.
+    wild_failures: usize,
 }
 
 /// Fits every model of the plan, one shared factorisation per design made once, in chunks of
@@ -307,6 +326,7 @@ fn estimate_and_write(
         effects: recipes.map(|_| StoredEffects::new()),
         residuals: None,
         failed: 0,
+        wild_failures: 0,
     };
     let mut cache = EvaluationCache::default();
     let mut problems = Vec::new();
@@ -335,8 +355,11 @@ fn estimate_and_write(
                     Ok(spec)
                 })
                 .collect::<Result<Vec<_>, Failure>>()?;
-            let fits = time("fit", || {
+            let mut fits = time("fit", || {
                 factor.fit_many_with_progress(&specs, fit_options, &|k| progress.inc(k as u64))
+            });
+            results.wild_failures += time("inference", || {
+                crate::wild::apply(plan, fit_options, design, members, &specs, &mut fits)
             });
             for (&m, fit) in members.iter().zip(fits) {
                 slots[m - start] = Some(Estimated {
@@ -389,6 +412,12 @@ fn estimate_and_write(
         results.failed += estimated.iter().filter(|(_, e)| e.fit.is_err()).count();
     }
     progress.finish_and_clear();
+    if results.wild_failures > 0 {
+        eprintln!(
+            "warning: the wild cluster bootstrap could not serve {} coefficient(s) (e.g. a coefficient collinear with the others on a sample's rows); those keep the cluster-robust p-value and interval",
+            results.wild_failures
+        );
+    }
     models_out.finish()?;
     if let Some(out) = terms_out {
         out.finish()?;
