@@ -7,6 +7,7 @@
 mod grid;
 mod ids;
 mod kept;
+mod picks;
 pub mod plan;
 mod planner;
 mod problem;

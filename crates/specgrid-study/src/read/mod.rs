@@ -1,6 +1,7 @@
 //! Reading a study file: TOML with positions → a checked [`Study`], or every problem at once.
 
 mod forms;
+mod pick_block;
 mod report;
 mod samples;
 mod sections;
