@@ -24,7 +24,7 @@ import pandas as pd
 
 from compare import RELATIVE_TOLERANCE, compare, specgrid_values
 from loops import Prepared, run_loop
-from studies import region_table, small_models_grid, wide_grid
+from studies import SMALL_MODELS, region_table, small_models_grid, wide_grid
 
 SCALES = {
     # rows of the wide table (4 seasons), models drawn, reference-loop subsets, growth sweeps
@@ -122,8 +122,8 @@ def scenario_wide(args, scale, work):
 
 def scenario_small_models(args, scale, work):
     full = scale["small_full"]
-    log(f"\n== many small models: 150 rows, 60 candidate regressors, {'2,002,828' if full else '6,859'} models, "
-        "classical + HC1 ==")
+    log(f"\n== many small models: 150 rows, 60 candidate regressors (3 always in, every set of 3 of the "
+        f"other 57), {SMALL_MODELS[full]:,} models, classical + HC1 ==")
     csv = os.path.join(work, "regions.csv")
     region_table().to_csv(csv, index=False, float_format="%.4f")
     grid = small_models_grid("regions.csv", full)

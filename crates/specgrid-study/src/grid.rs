@@ -67,11 +67,7 @@ enum BlockSource {
     Nested { dim: usize, step: usize },
     /// Pick block with its own dimension: the option number is unranked into a set of term
     /// positions when a model is expanded, so no set is stored (`picks.rs`).
-    Pick {
-        dim: usize,
-        sizes: Vec<usize>,
-        include_none: bool,
-    },
+    Pick { dim: usize, sets: picks::Unranker },
 }
 
 /// The decision dimensions of a study and how choices map to model content.
@@ -188,8 +184,7 @@ impl Layout {
                     let names = picks::option_names(&labels, sizes, *include_none);
                     BlockSource::Pick {
                         dim: push(&block.name, DimensionKind::Alternatives, names),
-                        sizes: sizes.clone(),
-                        include_none: *include_none,
+                        sets: picks::Unranker::new(terms.len(), sizes, *include_none),
                     }
                 }
             };
@@ -272,12 +267,8 @@ impl Layout {
                     (true, c) => &lists[c - 1],
                     (false, c) => &lists[c],
                 },
-                BlockSource::Pick {
-                    dim,
-                    ref sizes,
-                    include_none,
-                } => {
-                    picks::unrank(lists[0].len(), sizes, include_none, choices[dim], &mut set);
+                BlockSource::Pick { dim, ref sets } => {
+                    sets.set(choices[dim], &mut set);
                     picked.clear();
                     picked.extend(set.iter().map(|&p| lists[0][p]));
                     &picked

@@ -46,45 +46,75 @@ pub(crate) fn option_count(n: usize, sizes: &[usize], include_none: bool) -> u12
     })
 }
 
-/// The positions (ascending) of the set behind option `option` of a pick block of `n` terms,
-/// written into `out` (cleared first). `option` must be below [`option_count`]. Costs O(n).
-pub(crate) fn unrank(
+/// Turns option numbers of one pick block back into sets, with the binomial coefficients it
+/// needs tabulated once (a model's set then costs O(n) table look-ups, no 128-bit division).
+#[derive(Debug, Clone)]
+pub(crate) struct Unranker {
     n: usize,
-    sizes: &[usize],
+    sizes: Vec<usize>,
     include_none: bool,
-    option: usize,
-    out: &mut Vec<usize>,
-) {
-    out.clear();
-    let mut rank = option as u128;
-    if include_none {
-        if rank == 0 {
-            return;
+    /// C(m, j) for m ≤ n, j ≤ the largest size, row-major (m·(largest + 1) + j); every entry
+    /// is at most the block's option count, which [`MAX_PICK_OPTIONS`] bounds.
+    table: Vec<u64>,
+}
+
+impl Unranker {
+    /// For a block of `n` candidates with these sizes (ascending) and `none` option.
+    pub fn new(n: usize, sizes: &[usize], include_none: bool) -> Unranker {
+        let width = sizes.iter().max().copied().unwrap_or(0) + 1;
+        let mut table = vec![0u64; (n + 1) * width];
+        for m in 0..=n {
+            for j in 0..width.min(m + 1) {
+                table[m * width + j] = u64::try_from(binomial(m, j)).unwrap_or(u64::MAX);
+            }
         }
-        rank -= 1;
+        Unranker {
+            n,
+            sizes: sizes.to_vec(),
+            include_none,
+            table,
+        }
     }
-    for &k in sizes {
-        let count = binomial(n, k);
-        if rank >= count {
-            rank -= count;
-            continue;
+
+    fn choose(&self, m: usize, j: usize) -> u64 {
+        let width = self.table.len() / (self.n + 1);
+        self.table[m * width + j]
+    }
+
+    /// The positions (ascending) of the set behind option `option`, written into `out`
+    /// (cleared first); empty for `none`. `option` must be below [`option_count`].
+    pub fn set(&self, option: usize, out: &mut Vec<usize>) {
+        out.clear();
+        let mut rank = option as u64;
+        if self.include_none {
+            if rank == 0 {
+                return;
+            }
+            rank -= 1;
         }
-        // Lexicographic unranking: position c starts the rest of the set when the rank falls
-        // among the C(n − c − 1, still − 1) sets that begin with it.
-        let mut c = 0;
-        for still in (1..=k).rev() {
-            loop {
-                let starting_here = binomial(n - c - 1, still - 1);
-                if rank < starting_here {
-                    break;
+        for &k in &self.sizes {
+            let count = self.choose(self.n, k);
+            if rank >= count {
+                rank -= count;
+                continue;
+            }
+            // Lexicographic unranking: position c starts the rest of the set when the rank
+            // falls among the C(n − c − 1, still − 1) sets that begin with it.
+            let mut c = 0;
+            for still in (1..=k).rev() {
+                loop {
+                    let starting_here = self.choose(self.n - c - 1, still - 1);
+                    if rank < starting_here {
+                        break;
+                    }
+                    rank -= starting_here;
+                    c += 1;
                 }
-                rank -= starting_here;
+                out.push(c);
                 c += 1;
             }
-            out.push(c);
-            c += 1;
+            return;
         }
-        return;
     }
 }
 
@@ -153,8 +183,9 @@ mod tests {
         assert_eq!(names.len() as u128, option_count(7, &sizes, true));
         assert_eq!(names.len(), 1 + 7 + 35 + 1);
         let mut set = Vec::new();
+        let unranker = Unranker::new(7, &sizes, true);
         for (option, name) in names.iter().enumerate() {
-            unrank(7, &sizes, true, option, &mut set);
+            unranker.set(option, &mut set);
             let rebuilt = if set.is_empty() {
                 "none".to_string()
             } else {

@@ -368,3 +368,34 @@ fn too_many_sets_and_unknown_options_are_refused_with_short_hints() {
     let hint = all[0].hint.clone().unwrap();
     assert!(hint.contains("29260 in all") && hint.len() < 400, "{hint}");
 }
+
+/// The example of docs/study-file.md ("Pick blocks") plans the options the page says it does.
+#[test]
+fn the_documented_example_is_exact() {
+    let docs = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/../../docs/study-file.md"
+    ))
+    .unwrap();
+    let section = &docs[docs.find("### Pick blocks").expect("the section exists")..];
+    let start = section.find("```toml\n").unwrap() + 8;
+    let block = &section[start..start + section[start..].find("```").unwrap()];
+    let text = format!("{HEADER}[outcome]\ncolumn = \"y\"\n[focus]\ncolumn = \"x\"\n{block}");
+    let p = plan(&study(&text)).unwrap();
+    let options = &p
+        .dimensions
+        .iter()
+        .find(|d| d.name == "measures")
+        .unwrap()
+        .options;
+    let listed: Vec<String> = options.iter().map(|o| format!("`{o}`")).collect();
+    let prose = section[..section.find("With 57").unwrap()].replace('\n', " ");
+    assert!(
+        prose.contains(&format!(
+            "{}, {}, {} and {}",
+            listed[0], listed[1], listed[2], listed[3]
+        )),
+        "{prose}"
+    );
+    assert_eq!(options.len(), 4);
+}
