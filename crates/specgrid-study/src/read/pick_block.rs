@@ -65,15 +65,7 @@ pub(super) fn read_pick(
 /// with the same label (the label names the term in option names).
 fn candidate_terms(r: &mut Reader<'_>, v: &Val<'_>, place: &str) -> Option<Vec<Term>> {
     let what = format!("`terms` of {place}");
-    let items = r.array(v, &what)?;
-    if items.is_empty() {
-        r.report(
-            v.span().start,
-            format!("{what} is empty"),
-            Some("list at least two terms".into()),
-        );
-        return None;
-    }
+    let items = r.non_empty_array(v, &what, "list at least two terms")?;
     let before = r.problem_count();
     let mut terms: Vec<Term> = Vec::new();
     let mut by_label: HashMap<String, usize> = HashMap::new();
@@ -152,15 +144,8 @@ fn read_sizes(
         }
         (Some(v), None) => vec![(0, v)],
         (None, Some(v)) => {
-            let items = r.array(v, &format!("`sizes` of {place}"))?;
-            if items.is_empty() {
-                r.report(
-                    v.span().start,
-                    format!("`sizes` of {place} is empty"),
-                    Some("e.g. sizes = [1, 2, 3]".into()),
-                );
-                return None;
-            }
+            let what = format!("`sizes` of {place}");
+            let items = r.non_empty_array(v, &what, "e.g. sizes = [1, 2, 3]")?;
             items
                 .iter()
                 .enumerate()

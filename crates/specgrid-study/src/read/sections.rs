@@ -271,15 +271,7 @@ fn read_forms(
         )]);
     };
     let what = format!("`forms` in {place}");
-    let items = r.array(value, &what)?;
-    if items.is_empty() {
-        r.report(
-            value.span().start,
-            format!("{what} is empty"),
-            Some("list at least one form, e.g. [\"level\"]".into()),
-        );
-        return None;
-    }
+    let items = r.non_empty_array(value, &what, "list at least one form, e.g. [\"level\"]")?;
     let before = r.problem_count();
     let mut forms = Vec::new();
     let mut seen = HashSet::new();
