@@ -76,12 +76,38 @@ def source_columns(term):
     return [term[1]]
 
 
+class Pick:
+    """A `role = "pick"` block: every set of `size` of `terms` (docs/study-file.md). Its options
+    are named by the terms' labels joined with " + ", so `terms_of` maps a name back."""
+
+    def __init__(self, terms, size):
+        self.terms, self.size = terms, size
+        self.by_label = {term_label(t): t for t in terms}
+
+    def toml(self):
+        return ['role = "pick"', "terms = [" + ", ".join(term_toml(t) for t in self.terms) + "]",
+                f"size = {self.size}"]
+
+    def all_terms(self):
+        return list(self.terms)
+
+    def terms_of(self, option):
+        return [self.by_label[label] for label in option.split(" + ")]
+
+
+def term_label(term):
+    """specgrid's label of a term in option names; only level columns are needed here."""
+    if term[0] == "num" and term[2] == "level":
+        return term[1]
+    raise ValueError(f"no label rule for {term!r} in this suite")
+
+
 class Grid:
     """One study: outcome forms, focus forms (name -> [(term, label)]), control decisions, errors.
 
-    `decisions` is a list of (decision name, {option name: [terms]}) in file order; a decision
-    whose options are exactly "out" and "in" is written as an optional block, any other as an
-    alternatives block. `always` terms enter every model.
+    `decisions` is a list of (decision name, {option name: [terms]} or a `Pick`) in file order;
+    a decision whose options are exactly "out" and "in" is written as an optional block, any
+    other dict as an alternatives block. `always` terms enter every model.
     """
 
     def __init__(self, title, data, outcome, outcome_forms, focus, focus_forms, always, decisions,
@@ -118,7 +144,9 @@ class Grid:
                       "terms = [" + ", ".join(term_toml(t) for t in self.always) + "]", ""]
         for name, options in self.decisions:
             lines += ["[[controls]]", f'name = "{name}"']
-            if set(options) == {"out", "in"}:
+            if isinstance(options, Pick):
+                lines += options.toml() + [""]
+            elif set(options) == {"out", "in"}:
                 lines += ['role = "optional"',
                           "terms = [" + ", ".join(term_toml(t) for t in options["in"]) + "]", ""]
             else:
@@ -142,6 +170,9 @@ class Grid:
         """Every data column some model reads (the shared-row rule drops rows missing any)."""
         terms = list(self.always)
         for _, options in self.decisions:
+            if isinstance(options, Pick):
+                terms += options.all_terms()
+                continue
             for option_terms in options.values():
                 terms += option_terms
         cols = {self.outcome, self.focus}
@@ -163,7 +194,8 @@ class Grid:
         terms = [(t, label) for t, label in FOCUS_FORMS[choices["focus"]](self.focus)]
         terms += [(t, None) for t in self.always]
         for name, options in self.decisions:
-            terms += [(t, None) for t in options[choices[name]]]
+            chosen = options.terms_of(choices[name]) if isinstance(options, Pick) else options[choices[name]]
+            terms += [(t, None) for t in chosen]
         return choices["outcome"], terms
 
 
@@ -235,20 +267,17 @@ def wide_grid(data, sample, extra_samples=0):
 
 
 def small_models_grid(data, full):
-    """Many small models on the 150-region table: the focus and 2 controls always in, plus one
-    measure from each of three groups of 19 (19³ = 6,859 models). At full scale, two outcome
-    forms and 146 row sets (all regions, and each of regions 1–145 left out) make 2,002,828."""
-    measures = [f"measure_{i:02d}" for i in range(1, 58)]
-    groups = [measures[0:19], measures[19:38], measures[38:57]]
-    decisions = [
-        (f"group {'abc'[g]}", {m: [("num", m, "level")] for m in group}) for g, group in enumerate(groups)
-    ]
+    """The issue's many-small-models scenario on the 150-region table: 60 candidate regressors,
+    of which the focus and 2 controls are always in, and every set of 3 of the other 57 (one
+    `pick` block, C(57, 3) = 29,260 models). At full scale two outcome forms and 35 row sets
+    (all regions, and each of regions 1–34 left out) make 29,260 × 70 = 2,048,200."""
+    measures = [("num", f"measure_{i:02d}", "level") for i in range(1, 58)]
     samples = None
     if full:
         samples = [("all regions", "", None)] + [
             (f"without region {r}", f'{{ column = "region_no", not_equals = {r} }}',
              lambda f, r=r: f["region_no"].to_numpy() != r)
-            for r in range(1, 146)
+            for r in range(1, SMALL_LEAVE_OUT + 1)
         ]
     return Grid(
         title="Comparison suite: many small models",
@@ -258,12 +287,17 @@ def small_models_grid(data, full):
         focus="adviser_density",
         focus_forms=["level"],
         always=[("num", "rainfall_index", "level"), ("num", "market_access", "level")],
-        decisions=decisions,
+        decisions=[("measures", Pick(measures, 3))],
         errors=["classical", "hc1"],
         clusters=[],
         limit=3_000_000,
         samples=samples,
     )
+
+
+# Regions left out one at a time at full scale: 2 outcomes × (1 + 34) samples × 29,260 sets.
+SMALL_LEAVE_OUT = 34
+SMALL_MODELS = {False: 29_260, True: 29_260 * 2 * (1 + SMALL_LEAVE_OUT)}
 
 
 def region_table(seed=20261202, rows=150):

@@ -19,9 +19,14 @@ const TRIGGER: f64 = 1e-9;
 /// Largest last correction (relative to the yardstick) accepted as converged: the remaining
 /// error is about one more correction, so 1e-8 leaves a factor 10 against the 7-digit promise.
 const ACCEPT: f64 = 1e-8;
-/// Up to this many rows × coefficients, refinement always runs (a few passes over at most
-/// 65,536 numbers).
-const ALWAYS_REFINE_WORK: usize = 1 << 16;
+/// Up to this many rows × coefficients, refinement is cheap (a few passes over at most 65,536
+/// numbers), so it runs at the much lower [`SMALL_TRIGGER`].
+const SMALL_WORK: usize = 1 << 16;
+/// Trigger for small problems: a thousand times below [`TRIGGER`], which keeps the margin
+/// refinement buys on the ill-conditioned NIST sets (Wampler3 at LRE ≥ 10) while a
+/// well-conditioned small model, whose bound sits near 1e-14 of its yardstick, skips the passes
+/// (they were most of the per-model cost of the many-small-models scenario, docs/performance.md).
+const SMALL_TRIGGER: f64 = 1e-12;
 /// Most refinement steps.
 const MAX_STEPS: usize = 12;
 
@@ -45,14 +50,16 @@ fn yardsticks(core: &CoreFit) -> Vec<f64> {
 /// rounding bound (normwise in the data, per coefficient; Higham, Accuracy and Stability of
 /// Numerical Algorithms, 2nd ed., ch. 20, and Golub & Van Loan, Thm 5.3.1)
 /// u·(‖e_j'R⁻¹‖·(√k‖b̃‖ + ‖y‖) + ‖e_j'R⁻¹R⁻ᵀ‖·√k‖r‖), in scaled units (‖X̃‖ ≤ √k for unit
-/// columns), exceeds [`TRIGGER`] times its yardstick. Small problems (n·k ≤
-/// [`ALWAYS_REFINE_WORK`]) are always refined: there it costs next to nothing and buys margin
-/// (NIST Wampler3 goes from LRE 9.2 to 10).
+/// columns), exceeds [`TRIGGER`] times its yardstick ([`SMALL_TRIGGER`] for small problems,
+/// n·k ≤ [`SMALL_WORK`], where refinement is cheap and buys margin: NIST Wampler3 goes from
+/// LRE 9.2 unrefined to 10).
 pub(crate) fn needs_refinement(core: &CoreFit) -> bool {
     let k = core.k();
-    if core.n * k <= ALWAYS_REFINE_WORK {
-        return true;
-    }
+    let trigger = if core.n * k <= SMALL_WORK {
+        SMALL_TRIGGER
+    } else {
+        TRIGGER
+    };
     let root_k = (k as f64).sqrt();
     let b_norm = core
         .coef
@@ -77,7 +84,7 @@ pub(crate) fn needs_refinement(core: &CoreFit) -> bool {
             .sum::<f64>()
             .sqrt();
         let bound = EPS * (row_inv * (root_k * b_norm + y_norm) + row_gram * root_k * r_norm);
-        bound > TRIGGER * yard
+        bound > trigger * yard
     })
 }
 

@@ -3,6 +3,7 @@
 
 use std::collections::HashMap;
 
+use crate::picks;
 use crate::plan::{Dimension, DimensionKind, Term};
 use crate::study::{ControlRole, GridMode, SkipRule, Study};
 
@@ -54,7 +55,7 @@ impl TermTable {
 }
 
 /// How one control block is resolved from a model's choices.
-#[derive(Debug, Clone, Copy)]
+#[derive(Debug, Clone)]
 enum BlockSource {
     /// Always in.
     Always,
@@ -64,6 +65,9 @@ enum BlockSource {
     Alternatives { dim: usize, none_first: bool },
     /// Optional block in nested mode: in when the `controls` choice is at least `step`.
     Nested { dim: usize, step: usize },
+    /// Pick block with its own dimension: the option number is unranked into a set of term
+    /// positions when a model is expanded, so no set is stored (`picks.rs`).
+    Pick { dim: usize, sets: picks::Unranker },
 }
 
 /// The decision dimensions of a study and how choices map to model content.
@@ -76,8 +80,8 @@ pub(crate) struct Layout {
     blocks: Vec<BlockSource>,
     /// Term numbers of each focus form.
     focus_terms: Vec<Vec<usize>>,
-    /// Term numbers of each block: one list for always/optional blocks, one per option for
-    /// alternatives (without the `none` option).
+    /// Term numbers of each block: one list for always/optional/pick blocks, one per option
+    /// for alternatives (without the `none` option).
     block_terms: Vec<Vec<Vec<usize>>>,
     /// Whether each term is listed in `also_track`.
     also_tracked: Vec<bool>,
@@ -169,6 +173,20 @@ impl Layout {
                         none_first: *include_none,
                     }
                 }
+                ControlRole::Pick {
+                    terms,
+                    sizes,
+                    include_none,
+                } => {
+                    // A pick block is one decision in either mode: nested mode stacks only
+                    // optional blocks (docs/study-file.md).
+                    let labels: Vec<String> = terms.iter().map(Term::label).collect();
+                    let names = picks::option_names(&labels, sizes, *include_none);
+                    BlockSource::Pick {
+                        dim: push(&block.name, DimensionKind::Alternatives, names),
+                        sets: picks::Unranker::new(terms.len(), sizes, *include_none),
+                    }
+                }
             };
             blocks.push(source);
         }
@@ -188,7 +206,9 @@ impl Layout {
             .controls
             .iter()
             .map(|b| match &b.role {
-                ControlRole::Always(ts) | ControlRole::Optional(ts) => vec![table.intern_all(ts)],
+                ControlRole::Always(ts)
+                | ControlRole::Optional(ts)
+                | ControlRole::Pick { terms: ts, .. } => vec![table.intern_all(ts)],
                 ControlRole::Alternatives { options, .. } => {
                     options.iter().map(|o| table.intern_all(&o.terms)).collect()
                 }
@@ -228,24 +248,27 @@ impl Layout {
 
     /// Per control block, in file order, the term numbers it brings under a choice vector
     /// (empty when the block is out), before removing terms an earlier place already brought.
-    pub fn chosen_block_terms(&self, choices: &[usize]) -> Vec<&[usize]> {
+    /// Owned lists, for the inference phase; `content` resolves the same choices without
+    /// allocating, as the planner's hot loop must.
+    pub fn chosen_block_terms(&self, choices: &[usize]) -> Vec<Vec<usize>> {
+        let mut set = Vec::new();
         self.block_terms
             .iter()
             .zip(&self.blocks)
-            .map(|(lists, source)| -> &[usize] {
-                match *source {
-                    BlockSource::Always => &lists[0],
-                    BlockSource::Optional { dim } if choices[dim] == 1 => &lists[0],
-                    BlockSource::Nested { dim, step } if choices[dim] >= step => &lists[0],
-                    BlockSource::Alternatives { dim, none_first } => {
-                        match (none_first, choices[dim]) {
-                            (true, 0) => &[],
-                            (true, c) => &lists[c - 1],
-                            (false, c) => &lists[c],
-                        }
-                    }
-                    _ => &[],
+            .map(|(lists, source)| match *source {
+                BlockSource::Always => lists[0].clone(),
+                BlockSource::Optional { dim } if choices[dim] == 1 => lists[0].clone(),
+                BlockSource::Nested { dim, step } if choices[dim] >= step => lists[0].clone(),
+                BlockSource::Alternatives { dim, none_first } => match (none_first, choices[dim]) {
+                    (true, 0) => Vec::new(),
+                    (true, c) => lists[c - 1].clone(),
+                    (false, c) => lists[c].clone(),
+                },
+                BlockSource::Pick { dim, ref sets } => {
+                    sets.set(choices[dim], &mut set);
+                    set.iter().map(|&p| lists[0][p]).collect()
                 }
+                _ => Vec::new(),
             })
             .collect()
     }
@@ -264,7 +287,26 @@ impl Layout {
             }
         };
         add(focus, &mut terms);
-        for chosen in self.chosen_block_terms(choices) {
+        let mut set = Vec::new();
+        let mut picked = Vec::new();
+        for (lists, source) in self.block_terms.iter().zip(&self.blocks) {
+            let chosen: &[usize] = match *source {
+                BlockSource::Always => &lists[0],
+                BlockSource::Optional { dim } if choices[dim] == 1 => &lists[0],
+                BlockSource::Nested { dim, step } if choices[dim] >= step => &lists[0],
+                BlockSource::Alternatives { dim, none_first } => match (none_first, choices[dim]) {
+                    (true, 0) => &[],
+                    (true, c) => &lists[c - 1],
+                    (false, c) => &lists[c],
+                },
+                BlockSource::Pick { dim, ref sets } => {
+                    sets.set(choices[dim], &mut set);
+                    picked.clear();
+                    picked.extend(set.iter().map(|&p| lists[0][p]));
+                    &picked
+                }
+                _ => &[],
+            };
             add(chosen, &mut terms);
         }
         let tracked = terms

@@ -110,8 +110,45 @@ impl Kept {
     }
 
     /// Every kept grid index, ascending. Call only when `total` is small enough to list.
+    /// Each box is walked like an odometer (no division per point); a box that is the whole
+    /// grid (no skip rules) is simply 0..total.
     pub fn all(&self) -> Vec<u128> {
-        let mut out: Vec<u128> = (0..self.total()).map(|rank| self.nth(rank)).collect();
+        if let [only] = self.regions.as_slice() {
+            if only
+                .iter()
+                .zip(&self.radices)
+                .all(|(o, &r)| o.len() as u128 == r)
+            {
+                return (0..self.total()).collect();
+            }
+        }
+        let mut out: Vec<u128> = Vec::with_capacity(self.total() as usize);
+        for region in &self.regions {
+            if region.iter().any(Vec::is_empty) {
+                continue;
+            }
+            let mut digits = vec![0usize; region.len()];
+            loop {
+                out.push(
+                    digits
+                        .iter()
+                        .zip(region)
+                        .zip(&self.radices)
+                        .fold(0u128, |acc, ((&d, options), &radix)| {
+                            acc * radix + options[d] as u128
+                        }),
+                );
+                // Advance the last digit, carrying leftwards; done when the first overflows.
+                let Some(d) = (0..region.len())
+                    .rev()
+                    .find(|&d| digits[d] + 1 < region[d].len())
+                else {
+                    break;
+                };
+                digits[d] += 1;
+                digits[d + 1..].fill(0);
+            }
+        }
         out.sort_unstable();
         out
     }

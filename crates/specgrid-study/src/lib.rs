@@ -8,6 +8,7 @@ mod blocks;
 mod grid;
 mod ids;
 mod kept;
+mod picks;
 pub mod plan;
 mod planner;
 mod problem;

@@ -1,9 +1,9 @@
 //! Expanding a study into its planned models.
 
-use std::collections::{HashMap, HashSet};
+use std::cmp::Ordering;
 
 use crate::grid::{decode, full_size, Layout, SkipBox};
-use crate::ids::{canonical_text, model_id, sample_text};
+use crate::ids::{canonical_text, id_bits, model_id, outcome_text, sample_text};
 use crate::kept::Kept;
 use crate::plan::{Dimension, OutcomeForm, Plan, PlannedModel, RowPolicy, Term, Transform};
 use crate::problem::StudyProblem;
@@ -134,9 +134,16 @@ fn build(
     let mut plan_outcome: Vec<Option<usize>> = vec![None; study.outcome.forms.len()];
     let mut outcomes: Vec<OutcomeForm> = Vec::new();
     let sample_texts: Vec<String> = study.samples.iter().map(sample_text).collect();
+    let outcome_texts: Vec<String> = study
+        .outcome
+        .forms
+        .iter()
+        .map(|(_, f)| outcome_text(f))
+        .collect();
     let mut models = Vec::with_capacity(indices.len());
-    let mut seen_ids: HashMap<String, usize> = HashMap::new();
-    let mut duplicates = Vec::new();
+    // (id as a number, model position): sorted afterwards to find repeated ids.
+    let mut id_order: Vec<(u64, usize)> = Vec::with_capacity(indices.len());
+    let mut text = String::new();
     let mut two_weights: Option<usize> = None;
     for index in indices {
         let choices = decode(index, &radices);
@@ -154,19 +161,16 @@ fn build(
             outcomes.push(form.clone());
             outcomes.len() - 1
         });
-        let text = canonical_text(
+        canonical_text(
             table,
             &content,
-            form,
+            &outcome_texts[content.outcome],
             &sample_texts[content.sample],
             study.intercept,
+            &mut text,
         );
         let id = model_id(&text);
-        if let Some(&other) = seen_ids.get(&id) {
-            duplicates.push((other, models.len()));
-        } else {
-            seen_ids.insert(id.clone(), models.len());
-        }
+        id_order.push((id_bits(&id), models.len()));
         let absorbs = model_terms
             .iter()
             .any(|&t| matches!(terms[t], Term::Absorbed { .. }));
@@ -213,6 +217,7 @@ fn build(
         factorisations: 0,
         models,
     };
+    let duplicates = repeated_ids(id_order);
     if !duplicates.is_empty() {
         return Err(duplicate_problems(study, &plan, &duplicates));
     }
@@ -279,13 +284,29 @@ fn duplicate_problems(
     )]
 }
 
+/// Pairs (first, later) of model positions with the same id (the same content planned
+/// twice). Ids are 48 bits of SHA-256, so unrelated models share one with odds of about 2⁻⁴⁸
+/// per pair.
+fn repeated_ids(mut id_order: Vec<(u64, usize)>) -> Vec<(usize, usize)> {
+    id_order.sort_unstable();
+    id_order
+        .windows(2)
+        .filter(|w| w[0].0 == w[1].0)
+        .map(|w| (w[0].1, w[1].1))
+        .collect()
+}
+
+/// A model's factorisation key: sample, row domain, a 64-bit mix of its sorted terms (to sort
+/// plain integers), and the sorted terms as a range of a shared list (to settle equal mixes).
+type FactorKey = (usize, u8, u64, usize, usize);
+
 /// Models of one sample with the same term set share one factorisation of their design; under
-/// per-model rows the outcome's domain also shapes the rows.
+/// per-model rows the outcome's domain also shapes the rows. Counted by sorting the models'
+/// keys, kept in one flat list (a set of per-model vectors costs too much at 2,000,000).
 fn count_factorisations(plan: &Plan) -> usize {
-    let mut keys: HashSet<(usize, Vec<usize>, u8)> = HashSet::new();
+    let mut terms: Vec<u32> = Vec::new();
+    let mut keys: Vec<FactorKey> = Vec::with_capacity(plan.models.len());
     for m in &plan.models {
-        let mut terms = m.terms.clone();
-        terms.sort_unstable();
         let domain = match plan.row_policy {
             RowPolicy::SharedRows => 0,
             RowPolicy::PerModel => {
@@ -304,7 +325,27 @@ fn count_factorisations(plan: &Plan) -> usize {
                 column_tag.wrapping_mul(3).wrapping_add(domain)
             }
         };
-        keys.insert((m.sample, terms, domain));
+        let start = terms.len();
+        terms.extend(m.terms.iter().map(|&t| t as u32));
+        terms[start..].sort_unstable();
+        // Any mix works: equal term lists always mix equally, and unequal ones that collide
+        // are told apart by the comparison below.
+        let mix = terms[start..]
+            .iter()
+            .fold(0xcbf2_9ce4_8422_2325u64, |h, &t| {
+                (h ^ u64::from(t)).wrapping_mul(0x0100_0000_01b3)
+            });
+        keys.push((m.sample, domain, mix, start, terms.len()));
     }
-    keys.len()
+    let compare = |a: &FactorKey, b: &FactorKey| -> Ordering {
+        (a.0, a.1, a.2)
+            .cmp(&(b.0, b.1, b.2))
+            .then_with(|| terms[a.3..a.4].cmp(&terms[b.3..b.4]))
+    };
+    keys.sort_unstable_by(compare);
+    let repeats = keys
+        .windows(2)
+        .filter(|w| compare(&w[0], &w[1]) == Ordering::Equal)
+        .count();
+    keys.len() - repeats
 }

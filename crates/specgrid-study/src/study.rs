@@ -115,6 +115,16 @@ pub enum ControlRole {
         /// Whether "none" is also an option (listed first).
         include_none: bool,
     },
+    /// Every set of the given sizes drawn from the block's terms: one decision whose options
+    /// are the sets (see [`crate::picks`] for their order and names).
+    Pick {
+        /// The candidate terms, in file order; a set keeps this order.
+        terms: Vec<Term>,
+        /// Set sizes, ascending and distinct, each between 1 and the number of terms.
+        sizes: Vec<usize>,
+        /// Whether the empty set is also an option (`none`, listed first).
+        include_none: bool,
+    },
 }
 
 /// How the decisions combine.

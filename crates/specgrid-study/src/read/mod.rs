@@ -2,6 +2,7 @@
 
 mod forms;
 mod inference;
+mod pick_block;
 mod report;
 mod samples;
 mod sections;

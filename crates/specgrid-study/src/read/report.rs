@@ -136,7 +136,7 @@ pub(crate) fn check_report(
             None => r.report(
                 option_at,
                 format!("`{option}` is not an option of decision `{dim}`"),
-                Some(suggestion(&option, &options)),
+                Some(super::settings::option_hint(&option, &dim, &options)),
             ),
         }
     }

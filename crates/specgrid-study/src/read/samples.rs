@@ -197,15 +197,7 @@ fn keep_condition(
 
 /// Levels as text; integers are accepted and written in decimal.
 fn level_list(r: &mut Reader<'_>, v: &Val<'_>, what: &str) -> Option<Vec<String>> {
-    let items = r.array(v, what)?;
-    if items.is_empty() {
-        r.report(
-            v.span().start,
-            format!("{what} is empty"),
-            Some("list at least one level".into()),
-        );
-        return None;
-    }
+    let items = r.non_empty_array(v, what, "list at least one level")?;
     let mut levels = Vec::new();
     for item in items {
         let level = match item.get_ref() {

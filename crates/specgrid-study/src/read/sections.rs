@@ -7,7 +7,7 @@ use toml::de::DeTable;
 
 use super::forms::{read_form, read_terms, Form, FormKind};
 use super::values::{Reader, Val};
-use super::{inference, report, samples, settings, verdict};
+use super::{inference, pick_block, report, samples, settings, verdict};
 use crate::plan::{OutcomeForm, RowPolicy, Term, Transform};
 use crate::problem::suggestion;
 use crate::study::{
@@ -274,15 +274,7 @@ fn read_forms(
         )]);
     };
     let what = format!("`forms` in {place}");
-    let items = r.array(value, &what)?;
-    if items.is_empty() {
-        r.report(
-            value.span().start,
-            format!("{what} is empty"),
-            Some("list at least one form, e.g. [\"level\"]".into()),
-        );
-        return None;
-    }
+    let items = r.non_empty_array(value, &what, "list at least one form, e.g. [\"level\"]")?;
     let before = r.problem_count();
     let mut forms = Vec::new();
     let mut seen = HashSet::new();
@@ -336,7 +328,7 @@ fn read_focus(r: &mut Reader<'_>, t: &DeTable<'_>, at: usize) -> Option<FocusCho
 }
 
 /// A list of term specifications, flattened, duplicates removed.
-fn term_list(r: &mut Reader<'_>, value: &Val<'_>, what: &str) -> Option<Vec<Term>> {
+pub(super) fn term_list(r: &mut Reader<'_>, value: &Val<'_>, what: &str) -> Option<Vec<Term>> {
     let items = r.array(value, what)?;
     let before = r.problem_count();
     let mut terms: Vec<Term> = Vec::new();
@@ -373,7 +365,15 @@ fn read_controls(r: &mut Reader<'_>, value: Option<&Val<'_>>) -> Option<Vec<Cont
 fn read_block(r: &mut Reader<'_>, t: &DeTable<'_>, at: usize, place: &str) -> Option<ControlBlock> {
     r.check_keys(
         t,
-        &["name", "role", "terms", "options", "include_none"],
+        &[
+            "name",
+            "role",
+            "terms",
+            "options",
+            "include_none",
+            "size",
+            "sizes",
+        ],
         place,
     );
     let name = r
@@ -387,21 +387,24 @@ fn read_block(r: &mut Reader<'_>, t: &DeTable<'_>, at: usize, place: &str) -> Op
     let role_word = r.string(role_value, &format!("`role` of {place}"))?;
     let misplaced = |r: &mut Reader<'_>, key: &str, role: &str| {
         if let Some(v) = t.get(key) {
+            let hint = match key {
+                "options" => "use `terms` for an always, optional or pick block",
+                "size" | "sizes" => "use `size` or `sizes` only with role = \"pick\"",
+                "terms" => "list the terms of each option inside `options`",
+                _ => "use `include_none` only with role = \"alternatives\" or \"pick\"",
+            };
             r.report(
                 v.span().start,
                 format!("`{key}` does not apply to a block with role `{role}` ({place})"),
-                Some(if key == "options" {
-                    "use `terms` for an always or optional block".into()
-                } else {
-                    "use `options` and `include_none` only with role = \"alternatives\"".into()
-                }),
+                Some(hint.into()),
             );
         }
     };
     let role = match role_word.as_str() {
         "always" | "optional" => {
-            misplaced(r, "options", &role_word);
-            misplaced(r, "include_none", &role_word);
+            for key in ["options", "include_none", "size", "sizes"] {
+                misplaced(r, key, &role_word);
+            }
             let terms = r
                 .required(t, "terms", at, &place)
                 .and_then(|v| non_empty_terms(r, v, &format!("`terms` of {place}")))?;
@@ -412,7 +415,9 @@ fn read_block(r: &mut Reader<'_>, t: &DeTable<'_>, at: usize, place: &str) -> Op
             }
         }
         "alternatives" => {
-            misplaced(r, "terms", "alternatives");
+            for key in ["terms", "size", "sizes"] {
+                misplaced(r, key, "alternatives");
+            }
             let include_none = match t.get("include_none") {
                 Some(v) => r.boolean(v, &format!("`include_none` of {place}"))?,
                 None => false,
@@ -425,11 +430,18 @@ fn read_block(r: &mut Reader<'_>, t: &DeTable<'_>, at: usize, place: &str) -> Op
                 include_none,
             }
         }
+        "pick" => {
+            misplaced(r, "options", "pick");
+            pick_block::read_pick(r, t, at, &place)?
+        }
         other => {
             r.report(
                 role_value.span().start,
                 format!("unknown role `{other}` of {place}"),
-                Some(suggestion(other, &["always", "optional", "alternatives"])),
+                Some(suggestion(
+                    other,
+                    &["always", "optional", "alternatives", "pick"],
+                )),
             );
             return None;
         }
@@ -437,7 +449,7 @@ fn read_block(r: &mut Reader<'_>, t: &DeTable<'_>, at: usize, place: &str) -> Op
     Some(ControlBlock { name: name?, role })
 }
 
-fn non_empty_terms(r: &mut Reader<'_>, v: &Val<'_>, what: &str) -> Option<Vec<Term>> {
+pub(super) fn non_empty_terms(r: &mut Reader<'_>, v: &Val<'_>, what: &str) -> Option<Vec<Term>> {
     let terms = term_list(r, v, what)?;
     if terms.is_empty() {
         r.report(
@@ -535,6 +547,7 @@ fn all_regressors(study: &Study) -> Vec<&Term> {
         ControlRole::Alternatives { options, .. } => {
             options.iter().flat_map(|o| &o.terms).collect()
         }
+        ControlRole::Pick { terms, .. } => terms.iter().collect(),
     });
     focus.chain(controls).collect()
 }

@@ -4,7 +4,7 @@ use toml::de::{DeTable, DeValue};
 
 use super::values::{Reader, Val};
 use crate::plan::ErrorChoice;
-use crate::problem::{quoted_list, suggestion};
+use crate::problem::{closest, quoted_list, suggestion};
 use crate::study::{GridMode, GridSettings, SkipRule, Spots, Study, DEFAULT_LIMIT};
 
 const ERROR_WORDS: &[&str] = &["classical", "hc0", "hc1", "hc2", "hc3"];
@@ -334,10 +334,7 @@ pub(crate) fn check_skips(
                     r.report(
                         at,
                         format!("`{option}` is not an option of decision `{dim}`"),
-                        Some(format!(
-                            "options of `{dim}`: {}",
-                            quoted_list(&option_names)
-                        )),
+                        Some(option_hint(&option, &dim, &option_names)),
                     );
                 }
                 names.push(option);
@@ -350,6 +347,37 @@ pub(crate) fn check_skips(
         });
     }
     (r.problem_count() == before).then_some(rules)
+}
+
+/// Most options a hint lists before it says how many more there are (a pick block may have
+/// tens of thousands).
+const LISTED_OPTIONS: usize = 12;
+
+/// "did you mean" for a misspelt option, else the decision's options (the first few of a long
+/// list, with the total).
+pub(crate) fn option_hint(option: &str, dim: &str, options: &[&str]) -> String {
+    if options.len() > LISTED_OPTIONS {
+        if let Some(c) = closest(option, options) {
+            return format!("did you mean `{c}`?");
+        }
+        return format!(
+            "options of `{dim}` include {} … ({} in all; `specgrid plan` lists them)",
+            quoted_list(&options[..LISTED_OPTIONS]),
+            options.len()
+        );
+    }
+    suggestion_or_list(option, dim, options)
+}
+
+/// A short list's hint: "did you mean" when close, else every option.
+fn suggestion_or_list(option: &str, dim: &str, options: &[&str]) -> String {
+    match closest(option, options) {
+        Some(c) => format!(
+            "did you mean `{c}`? (options of `{dim}`: {})",
+            quoted_list(options)
+        ),
+        None => format!("options of `{dim}`: {}", quoted_list(options)),
+    }
 }
 
 /// Reports a decision name that is not one of the study's, with a suggestion and the list.

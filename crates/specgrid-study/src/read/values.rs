@@ -221,6 +221,26 @@ impl<'s> Reader<'s> {
             }
         }
     }
+
+    /// An array with at least one item; an empty one is reported as "`what` is empty" with
+    /// `hint`.
+    pub fn non_empty_array<'v, 'i>(
+        &mut self,
+        value: &'v Val<'i>,
+        what: &str,
+        hint: &str,
+    ) -> Option<&'v [Val<'i>]> {
+        let items = self.array(value, what)?;
+        if items.is_empty() {
+            self.report(
+                value.span().start,
+                format!("{what} is empty"),
+                Some(hint.into()),
+            );
+            return None;
+        }
+        Some(items)
+    }
 }
 
 /// "a string", "an integer", … for messages.
