@@ -22,6 +22,8 @@ pub(crate) struct ClusterGrams {
     grams: Vec<f64>,
     /// Rows per cluster.
     sizes: Vec<usize>,
+    /// ‖z̃ₗ,g‖₂ = √S_g[l, l], G blocks of q.
+    norms: Vec<f64>,
 }
 
 impl ClusterGrams {
@@ -67,11 +69,18 @@ impl ClusterGrams {
                     }
                 }
             });
+        let norms = (0..range * q)
+            .map(|gl| {
+                let (g, l) = (gl / q, gl % q);
+                grams[g * q * q + l + l * q].max(0.0).sqrt()
+            })
+            .collect();
         ClusterGrams {
             range,
             q,
             grams,
             sizes,
+            norms,
         }
     }
 
@@ -104,7 +113,8 @@ impl ClusterGrams {
                 continue;
             }
             let gram = &self.grams[g * q * q..(g + 1) * q * q];
-            let norm = |l: usize| gram[l + l * q].max(0.0).sqrt();
+            let norms = &self.norms[g * q..(g + 1) * q];
+            let norm = |l: usize| norms[l];
             let mut c_size = 0.0;
             for (i, ti) in t.iter_mut().enumerate() {
                 let col = &gram[v.active[i] * q..];

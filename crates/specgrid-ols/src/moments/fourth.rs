@@ -2,8 +2,9 @@
 //! Breusch–Pagan sums of one model from them, with no pass over the rows.
 //!
 //! Built once per design from the distinct index sets l ≤ m ≤ r ≤ s only (about q⁴/24 sums,
-//! a third of the Gram matrix of all pairwise products), as matrix products over row blocks;
-//! then spread into a dense q⁴ array so a model's contraction is plain indexing.
+//! a third of the Gram matrix of all pairwise products), as matrix products over row blocks,
+//! and kept in that compact form (small enough to stay in cache during the per-model
+//! contractions, which visit each distinct set once).
 
 use faer::linalg::matmul::matmul;
 use faer::{Accum, Mat, MatRef, Par};
@@ -21,17 +22,22 @@ const MIN_CHUNK_ROWS: usize = 32_768;
 /// Most chunk partial results held at once (memory).
 const MAX_CHUNKS: usize = 64;
 
-/// The dense fourth-moment array of the centred union.
+/// The distinct fourth moments of the centred union.
 #[derive(Debug)]
 pub(crate) struct FourthMoments {
-    q: usize,
-    /// q⁴ entries, index ((l·q + m)·q + r)·q + s.
-    dense: Vec<f64>,
+    /// Start of each first index in the pair order (length q + 1).
+    starts: Vec<usize>,
+    /// Per middle index m: the (m+1) × (P − start(m)) block holding M[l,m,r,s] for l ≤ m ≤ r ≤ s
+    /// at row l, column (pair index of (r, s)) − start(m).
+    blocks: Blocks,
     /// ‖z̃ₗ‖₄ = M[l,l,l,l]^¼ per coordinate.
     norm4: Vec<f64>,
     /// Rows.
     n: usize,
 }
+
+/// Per middle index m: the (m+1) × (P − start(m)) block of sums Σ z̃ₗz̃ₘ·(z̃ᵣz̃ₛ), l ≤ m ≤ r ≤ s.
+type Blocks = Vec<Mat<f64>>;
 
 /// Start offsets of each first index in the pair order (length q + 1).
 fn pair_starts(q: usize) -> Vec<usize> {
@@ -41,9 +47,6 @@ fn pair_starts(q: usize) -> Vec<usize> {
     }
     s
 }
-
-/// Per middle index m: the (m+1) × (P − start(m)) block of sums Σ z̃ₗz̃ₘ·(z̃ᵣz̃ₛ), l ≤ m ≤ r ≤ s.
-type Blocks = Vec<Mat<f64>>;
 
 fn empty_blocks(q: usize, starts: &[usize]) -> Blocks {
     let total = starts[q];
@@ -100,9 +103,10 @@ fn chunk_blocks(
 }
 
 impl FourthMoments {
-    /// Memory the dense array takes for `q` coordinates, in f64 slots.
+    /// Memory the distinct moments take for `q` coordinates, in f64 slots (about q⁴/24, and
+    /// as much again per chunk partial during the build).
     pub fn slots(q: usize) -> usize {
-        q.pow(4)
+        q.pow(4) / 24 + q.pow(3)
     }
 
     /// Builds the moments: fixed row chunks in parallel (each sequential), summed in chunk
@@ -126,43 +130,76 @@ impl FourthMoments {
             }
         }
         drop(parts);
-        let mut dense = vec![0.0; q.pow(4)];
-        for (m, block) in sum.iter().enumerate() {
-            for l in 0..=m {
-                for r in m..q {
-                    for s in r..q {
-                        let v = block[(l, starts[r] + s - r - starts[m])];
-                        for [i, j, k, t] in permutations([l, m, r, s]) {
-                            dense[((i * q + j) * q + k) * q + t] = v;
+        let norm4 = (0..q).map(|l| sum[l][(l, 0)].max(0.0).powf(0.25)).collect();
+        FourthMoments {
+            starts,
+            blocks: sum,
+            norm4,
+            n,
+        }
+    }
+
+    /// The e²-weighted Gram T[i, j] = Σᵢ eᵢ² z̃ᵢₗz̃ᵢₘ over the model's active coordinates
+    /// (na × na, row-major) and the 4-norm size of c̃ (ones slack included).
+    ///
+    /// Each distinct set of four active coordinates is visited once; for each way of splitting
+    /// it into a pair (l, m) and a remainder (r, s) (distinct pairs only), T[l, m] gains
+    /// M·c̃ᵣc̃ₛ, twice when r ≠ s (both orders of the remainder).
+    fn weighted_gram(&self, v: &ModelVectors, t: &mut Vec<f64>) -> f64 {
+        const SPLITS: [[usize; 4]; 6] = [
+            [0, 1, 2, 3],
+            [0, 2, 1, 3],
+            [0, 3, 1, 2],
+            [1, 2, 0, 3],
+            [1, 3, 0, 2],
+            [2, 3, 0, 1],
+        ];
+        let (act, c) = (&v.active, &v.c);
+        let na = act.len();
+        t.clear();
+        t.resize(na * na, 0.0);
+        // cc[r·na + s] = c̃ᵣc̃ₛ, doubled off the diagonal (both orders of the remainder).
+        let mut cc = vec![0.0; na * na];
+        for r in 0..na {
+            for s in 0..na {
+                cc[r * na + s] = c[r] * c[s] * if r == s { 1.0 } else { 2.0 };
+            }
+        }
+        for i0 in 0..na {
+            for i1 in i0..na {
+                let block = &self.blocks[act[i1]];
+                let base = self.starts[act[i1]];
+                for i2 in i1..na {
+                    let col0 = self.starts[act[i2]] - act[i2] - base;
+                    for i3 in i2..na {
+                        let m = block[(act[i0], col0 + act[i3])];
+                        if i0 < i1 && i1 < i2 && i2 < i3 {
+                            // Four distinct coordinates: six distinct splits.
+                            t[i0 * na + i1] += m * cc[i2 * na + i3];
+                            t[i0 * na + i2] += m * cc[i1 * na + i3];
+                            t[i0 * na + i3] += m * cc[i1 * na + i2];
+                            t[i1 * na + i2] += m * cc[i0 * na + i3];
+                            t[i1 * na + i3] += m * cc[i0 * na + i2];
+                            t[i2 * na + i3] += m * cc[i0 * na + i1];
+                            continue;
+                        }
+                        let idx = [i0, i1, i2, i3];
+                        let mut seen = [(usize::MAX, usize::MAX); 6];
+                        for (n_seen, split) in SPLITS.iter().enumerate() {
+                            let (l, mm) = (idx[split[0]], idx[split[1]]);
+                            if seen[..n_seen].contains(&(l, mm)) {
+                                continue;
+                            }
+                            seen[n_seen] = (l, mm);
+                            t[l * na + mm] += m * cc[idx[split[2]] * na + idx[split[3]]];
                         }
                     }
                 }
             }
         }
-        let norm4 = (0..q)
-            .map(|l| dense[((l * q + l) * q + l) * q + l].max(0.0).powf(0.25))
-            .collect();
-        FourthMoments { q, dense, norm4, n }
-    }
-
-    /// The e²-weighted Gram T[i, j] = Σᵢ eᵢ² z̃ᵢₗz̃ᵢₘ over the model's active coordinates
-    /// (na × na, row-major) and the 4-norm size of c̃ (ones slack included).
-    fn weighted_gram(&self, v: &ModelVectors, t: &mut Vec<f64>) -> f64 {
-        let q = self.q;
-        let na = v.active.len();
-        t.clear();
-        t.resize(na * na, 0.0);
-        for i in 0..na {
-            for j in i..na {
-                let base = (v.active[i] * q + v.active[j]) * q;
-                let mut acc = 0.0;
-                for (r, &cr) in v.c.iter().enumerate() {
-                    let row = &self.dense[(base + v.active[r]) * q..];
-                    let inner: f64 = v.active.iter().zip(&v.c).map(|(&s, cs)| row[s] * cs).sum();
-                    acc += cr * inner;
-                }
-                t[i * na + j] = acc;
-                t[j * na + i] = acc;
+        for l in 0..na {
+            for mm in l + 1..na {
+                t[mm * na + l] = t[l * na + mm];
             }
         }
         self.size4(&v.c, v.c0_slack, &v.active)
@@ -316,36 +353,4 @@ impl FourthMoments {
             xt1,
         })
     }
-}
-
-/// The 24 orderings of four indices (repeats allowed; duplicates are harmless).
-fn permutations(v: [usize; 4]) -> impl Iterator<Item = [usize; 4]> {
-    const P: [[usize; 4]; 24] = [
-        [0, 1, 2, 3],
-        [0, 1, 3, 2],
-        [0, 2, 1, 3],
-        [0, 2, 3, 1],
-        [0, 3, 1, 2],
-        [0, 3, 2, 1],
-        [1, 0, 2, 3],
-        [1, 0, 3, 2],
-        [1, 2, 0, 3],
-        [1, 2, 3, 0],
-        [1, 3, 0, 2],
-        [1, 3, 2, 0],
-        [2, 0, 1, 3],
-        [2, 0, 3, 1],
-        [2, 1, 0, 3],
-        [2, 1, 3, 0],
-        [2, 3, 0, 1],
-        [2, 3, 1, 0],
-        [3, 0, 1, 2],
-        [3, 0, 2, 1],
-        [3, 1, 0, 2],
-        [3, 1, 2, 0],
-        [3, 2, 0, 1],
-        [3, 2, 1, 0],
-    ];
-    P.into_iter()
-        .map(move |p| [v[p[0]], v[p[1]], v[p[2]], v[p[3]]])
 }
