@@ -224,8 +224,8 @@ impl FourthMoments {
     }
 
     /// HC0 sums Σ wₐw_b e² over the reported w columns `rep` (t × t, row-major) and, when
-    /// `bp` is asked, the Breusch–Pagan sums; `None` when a rounding bound exceeds
-    /// `tolerance` of the quantity it guards.
+    /// `need_bp`, the Breusch–Pagan sums; `None` when a rounding bound exceeds `tolerance` of
+    /// an HC0 diagonal entry, or `bp_tolerance` of the Breusch–Pagan statistic's scale.
     #[allow(clippy::too_many_arguments)]
     pub fn model_sums(
         &self,
@@ -236,6 +236,7 @@ impl FourthMoments {
         need_hc: bool,
         need_bp: bool,
         tolerance: f64,
+        bp_tolerance: f64,
         t: &mut Vec<f64>,
     ) -> Option<(Vec<f64>, Option<BpSums>)> {
         let na = v.active.len();
@@ -265,7 +266,7 @@ impl FourthMoments {
             }
         }
         let bp = match need_bp {
-            true => Some(self.bp_sums(basis, core, v, t, c4, gamma, tolerance)?),
+            true => Some(self.bp_sums(basis, core, v, t, c4, gamma, bp_tolerance)?),
             false => None,
         };
         Some((hc0, bp))

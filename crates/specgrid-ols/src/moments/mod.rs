@@ -34,6 +34,12 @@ pub(crate) const ROUNDING_LAMBDA: f64 = 8.0;
 /// A model's moment sums are used only when their rounding bound is at most this fraction of
 /// the quantity (a factor 10 below the 1e-8 the tests hold the routes to).
 const MOMENT_TOLERANCE: f64 = 1e-9;
+/// The Breusch–Pagan statistic from moments is used only when its rounding bound is at most
+/// this fraction of max(statistic, degrees of freedom). Looser than the meats' guard because
+/// the statistic is inherently less resolved: under homoskedasticity its explained sum is
+/// about k/n of the total, so any route summing over n rows (the row pass included) resolves
+/// it only to about √(n/k)·u times the size of the sums (docs/methods.md).
+const BP_TOLERANCE: f64 = 1e-8;
 /// Most f64 slots the moments of one factor may hold (1 GiB); above it the row pass runs.
 const MEMORY_BUDGET_SLOTS: usize = 1 << 27;
 
@@ -253,6 +259,7 @@ fn moment_meats(
             plan.need_hc0,
             prep.need_bp,
             MOMENT_TOLERANCE,
+            BP_TOLERANCE,
             &mut work.scratch,
         )?;
         meats.hc0 = hc0;
