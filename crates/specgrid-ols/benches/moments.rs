@@ -1,7 +1,7 @@
 //! Moment route against the batched row pass, same grid, same process, same thread pool.
 //!
-//! Seeded invented design (a cooperative's orchard table): n rows, p union columns (intercept
-//! + p − 1 correlated regressors), one outcome, one clustering code with G levels; `models`
+//! Seeded invented design (a cooperative's orchard table): n rows, p union columns (an intercept
+//! and p − 1 correlated regressors), one outcome, one clustering code with G levels; `models`
 //! random models of 5–20 columns (intercept always in), HC1 and one-way cluster-robust errors,
 //! one tracked coefficient each. For each n in SPECGRID_BENCH_NS:
 //! - moment route: a first call on one model (the one-off build of the moments plus that

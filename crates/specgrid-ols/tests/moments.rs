@@ -374,7 +374,11 @@ fn analytic_weights_agree() {
 fn auto_route_follows_the_announced_grid() {
     let design = leak(random_design(61, 20_000, 5, 4, 40, 30));
     let models = random_models(62, design, 4, 5, 4);
-    let opts = moment_choices();
+    // The wide-data scenario's choices (issue 6): HC1 and one-way cluster-robust.
+    let opts = FitOptions {
+        covariances: vec![Covariance::Hc1, Covariance::Cluster { dim: 0 }],
+        ..FitOptions::default()
+    };
     // Four models on 20,000 rows: one build costs more than four row passes.
     let small = SharedFactor::new(design).unwrap();
     small.fit_many(&models, &opts);

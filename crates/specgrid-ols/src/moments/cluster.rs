@@ -142,7 +142,9 @@ impl ClusterGrams {
             }
         }
         for j in 0..nw {
-            if !(err[j] <= tolerance * out[j + j * nw]) {
+            // Written so that a NaN bound also fails.
+            let resolved = err[j] <= tolerance * out[j + j * nw];
+            if !resolved {
                 return None;
             }
             for i in 0..j {

@@ -41,9 +41,10 @@ type Blocks = Vec<Mat<f64>>;
 
 /// Start offsets of each first index in the pair order (length q + 1).
 fn pair_starts(q: usize) -> Vec<usize> {
-    let mut s = vec![0; q + 1];
+    let mut s = Vec::with_capacity(q + 1);
+    s.push(0);
     for r in 0..q {
-        s[r + 1] = s[r] + (q - r);
+        s.push(s[r] + (q - r));
     }
     s
 }
@@ -73,22 +74,21 @@ fn chunk_blocks(
     while b0 < r0 + nr {
         let nb = BLOCK_ROWS.min(r0 + nr - b0);
         basis.fill_range(x, y, b0, nb, &mut z);
-        for r in 0..q {
+        for (r, &start) in starts[..q].iter().enumerate() {
             for s in r..q {
                 let (zr, zs) = (z.col(r), z.col(s));
-                let mut d = pp.col_mut(starts[r] + s - r);
+                let mut d = pp.col_mut(start + s - r);
                 for i in 0..nb {
                     d[i] = zr[i] * zs[i];
                 }
             }
         }
         for (m, block) in out.iter_mut().enumerate() {
-            for l in 0..=m {
-                let src = pp.col(starts[l] + m - l);
-                let mut d = lhs.col_mut(l);
-                for i in 0..nb {
-                    d[i] = src[i];
-                }
+            for (l, &start) in starts[..=m].iter().enumerate() {
+                let src = pp.col(start + m - l);
+                lhs.col_mut(l)
+                    .subrows_mut(0, nb)
+                    .copy_from(src.subrows(0, nb));
             }
             let a = lhs.as_ref().subrows(0, nb).subcols(0, m + 1);
             let b = pp
@@ -260,7 +260,9 @@ impl FourthMoments {
                 }
                 let a4 = self.size4(xa, v.a0_slack[rep[a]], &v.active);
                 let bound = gamma * (a4 * c4).powi(2);
-                if !(bound <= tolerance * hc0[a * nt + a]) {
+                // Written so that a NaN bound also fails.
+                let resolved = bound <= tolerance * hc0[a * nt + a];
+                if !resolved {
                     return None;
                 }
             }
@@ -340,7 +342,8 @@ impl FourthMoments {
             let d_stat = nf * (d_ess / tss + ess * d_tss / (tss * tss)) / (1.0 - d_tss / tss);
             // Judged against the statistic or, when it is below its degrees of freedom, against
             // those: digits of a statistic far inside its null distribution do not matter.
-            if !(d_stat <= tolerance * stat.max(core.k() as f64 - 1.0)) {
+            let resolved = d_stat <= tolerance * stat.max(core.k() as f64 - 1.0);
+            if !resolved {
                 return None;
             }
         } else if core.has_constant && core.k() >= 2 {

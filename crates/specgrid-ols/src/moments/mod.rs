@@ -66,12 +66,15 @@ pub struct MomentStats {
     pub fallbacks: usize,
 }
 
+/// A clustering: a design dimension, or the intersection of two (see `plan::Grouping::key`).
+type GroupKey = (usize, Option<usize>);
+
 /// Moments cached in a factor, shared by every call (chunk) on it.
 #[derive(Debug, Default)]
 pub(crate) struct MomentStore {
     basis: OnceLock<Basis>,
     fourth: OnceLock<FourthMoments>,
-    clusters: Mutex<Vec<((usize, Option<usize>), Arc<ClusterGrams>)>>,
+    clusters: Mutex<Vec<(GroupKey, Arc<ClusterGrams>)>>,
     by_moments: AtomicUsize,
     fallbacks: AtomicUsize,
 }
