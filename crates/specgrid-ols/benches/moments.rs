@@ -19,12 +19,14 @@
 use std::time::Instant;
 
 use faer::Mat;
-use rand::{Rng, SeedableRng};
+use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, StandardNormal};
 use specgrid_ols::{
-    ClusterIds, Covariance, CovarianceRoute, Design, FitOptions, ModelFit, ModelSpec, SharedFactor,
+    ClusterIds, Covariance, CovarianceRoute, Design, FitOptions, ModelFit, SharedFactor,
 };
+
+mod common;
 
 fn env(name: &str, default: usize) -> usize {
     std::env::var(name)
@@ -60,27 +62,6 @@ fn design(n: usize, p: usize, g: usize, rng: &mut ChaCha8Rng) -> Design {
             count: g,
         }],
     }
-}
-
-fn models(count: usize, p: usize, rng: &mut ChaCha8Rng) -> Vec<ModelSpec> {
-    (0..count)
-        .map(|_| {
-            let k = rng.random_range(5..=20usize).min(p);
-            let mut cols = vec![0];
-            while cols.len() < k {
-                let c = rng.random_range(1..p);
-                if !cols.contains(&c) {
-                    cols.push(c);
-                }
-            }
-            let tracked = vec![cols[1]];
-            ModelSpec {
-                columns: cols,
-                outcome: 0,
-                tracked,
-            }
-        })
-        .collect()
 }
 
 fn worst_se_difference(
@@ -126,7 +107,7 @@ fn main() {
     for &n in &ns {
         let mut rng = ChaCha8Rng::seed_from_u64(2026);
         let design = design(n, p, g, &mut rng);
-        let models = models(count, p, &mut rng);
+        let models = common::random_models(count, p, 5..=20, &mut rng);
 
         let mut factor = SharedFactor::new(&design).expect("valid design");
         factor.set_covariance_route(CovarianceRoute::Moments);

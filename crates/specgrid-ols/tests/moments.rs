@@ -21,21 +21,10 @@ const REL: f64 = 1e-8;
 
 /// Every covariance choice the moment route serves (HC2/HC3 need leverages: row pass).
 fn moment_choices() -> FitOptions {
-    use Covariance::*;
-    FitOptions {
-        covariances: vec![
-            Classical,
-            Hc0,
-            Hc1,
-            Cluster { dim: 0 },
-            Cluster { dim: 1 },
-            TwoWayCluster {
-                first: 0,
-                second: 1,
-            },
-        ],
-        ..FitOptions::default()
-    }
+    let mut opts = support::all_covariances();
+    opts.covariances
+        .retain(|c| !matches!(c, Covariance::Hc2 | Covariance::Hc3));
+    opts
 }
 
 type Fits = Vec<Result<ModelFit, specgrid_ols::ModelError>>;

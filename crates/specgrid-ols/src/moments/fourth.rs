@@ -19,7 +19,7 @@ use crate::model_core::CoreFit;
 const BLOCK_ROWS: usize = 256;
 /// Rows per chunk of the parallel build, at least; chunks are summed in order.
 const MIN_CHUNK_ROWS: usize = 32_768;
-/// Most chunk partial results held at once (memory).
+/// Most chunks (their partial sums are all held until the ordered reduction).
 const MAX_CHUNKS: usize = 64;
 
 /// The distinct fourth moments of the centred union.
@@ -111,10 +111,17 @@ impl FourthMoments {
 
     /// Builds the moments: fixed row chunks in parallel (each sequential), summed in chunk
     /// order, so the numbers do not depend on the thread count.
-    pub fn build(basis: &Basis, x: MatRef<'_, f64>, y: MatRef<'_, f64>) -> FourthMoments {
+    /// `budget` (f64 slots) caps the chunk partials held at once.
+    pub fn build(
+        basis: &Basis,
+        x: MatRef<'_, f64>,
+        y: MatRef<'_, f64>,
+        budget: usize,
+    ) -> FourthMoments {
         let (n, q) = (basis.n, basis.q);
         let starts = pair_starts(q);
-        let chunk = MIN_CHUNK_ROWS.max(n.div_ceil(MAX_CHUNKS)).max(1);
+        let chunks = (budget / Self::slots(q)).clamp(1, MAX_CHUNKS);
+        let chunk = MIN_CHUNK_ROWS.max(n.div_ceil(chunks)).max(1);
         let bounds: Vec<(usize, usize)> = (0..n)
             .step_by(chunk)
             .map(|r0| (r0, chunk.min(n - r0)))

@@ -21,7 +21,7 @@ use crate::api::{Design, ModelSpec};
 use crate::finish::Meats;
 use crate::model_core::CoreFit;
 use crate::plan::Plan;
-use crate::row_pass::empty_meats;
+use crate::row_pass::{empty_meats, reported_w};
 use basis::{Basis, ModelVectors};
 use cluster::ClusterGrams;
 use cost::Workload;
@@ -131,7 +131,8 @@ impl MomentStore {
         let q_max = 1 + p + m;
         let total_range: usize = plan.groupings.iter().map(|g| g.range).sum();
         let slots = if fourth {
-            FourthMoments::slots(q_max)
+            // The moments, their sum during the build and at least one chunk partial.
+            3 * FourthMoments::slots(q_max)
         } else {
             0
         } + plan
@@ -180,7 +181,7 @@ impl MomentStore {
         let basis = self.basis.get_or_init(|| Basis::new(x, y));
         let fourth = fourth.then(|| {
             self.fourth
-                .get_or_init(|| FourthMoments::build(basis, x, y))
+                .get_or_init(|| FourthMoments::build(basis, x, y, MEMORY_BUDGET_SLOTS / 2))
         });
         let grams = plan
             .groupings
@@ -241,16 +242,7 @@ fn moment_meats(
     }
     if let Some(fourth) = prep.fourth {
         let rep: Vec<usize> = if plan.need_hc0 {
-            core.reported
-                .iter()
-                .map(|q| {
-                    meats
-                        .wpos
-                        .iter()
-                        .position(|w| w == q)
-                        .expect("reported in wpos")
-                })
-                .collect()
+            reported_w(core, &meats)
         } else {
             Vec::new()
         };
