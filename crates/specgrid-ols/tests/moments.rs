@@ -419,3 +419,28 @@ fn thread_count_does_not_change_the_numbers() {
     let (one, two) = (run(1), run(2));
     assert_eq!(one, two, "1 and 2 threads differ");
 }
+
+#[test]
+fn chunks_share_the_moments_and_match_one_call() {
+    // The binary fits a design's models in chunks: later chunks reuse the cached moments and
+    // every model gets the numbers a single call gives (the moment sums of a model do not
+    // depend on which other models share its call).
+    let design = leak(random_design(91, 5000, 5, 4, 40, 30));
+    let models = random_models(92, design, 60, 5, 4);
+    let opts = moment_choices();
+    let mut whole = SharedFactor::new(design).unwrap();
+    whole.set_covariance_route(CovarianceRoute::Moments);
+    let one_call = whole.fit_many(&models, &opts);
+    let mut chunked = SharedFactor::new(design).unwrap();
+    chunked.set_covariance_route(CovarianceRoute::Moments);
+    let mut pieces = Vec::new();
+    for chunk in models.chunks(17) {
+        pieces.extend(chunked.fit_many(chunk, &opts));
+    }
+    assert_eq!(one_call, pieces);
+    assert_eq!(chunked.moment_stats(), whole.moment_stats());
+    assert_eq!(
+        chunked.moment_stats().by_moments + chunked.moment_stats().fallbacks,
+        one_call.iter().filter(|f| f.is_ok()).count()
+    );
+}

@@ -255,3 +255,14 @@ impl Basis {
         }
     }
 }
+
+/// Start of each first index in the order of the pairs (l, m), l ≤ m, of q coordinates (length
+/// q + 1): pair (l, m) has index starts[l] + m − l.
+pub(crate) fn pair_starts(q: usize) -> Vec<usize> {
+    let mut s = Vec::with_capacity(q + 1);
+    s.push(0);
+    for r in 0..q {
+        s.push(s[r] + (q - r));
+    }
+    s
+}

@@ -6,10 +6,10 @@
 /// groupings)) in the batched row pass. Measured by `benches/moments.rs` (2 threads, shared
 /// machine): 7.6e-10 at 10⁵ rows and 1.4e-9 at 10⁶ rows (23.5 ms per model of mean width 16.5).
 const ROW_UNIT: f64 = 1.0e-9;
-/// Seconds per unit of the one-off moment build (n·(q⁴/24 + q²/2) for the fourth moments, n·q²
-/// per clustering). Measured: 1.9e-10 at 10⁵ rows, 1.7e-10 at 10⁶ rows (20.4 s for q = 41).
+/// Seconds per unit of the one-off moment build (n·(q⁴/24 + q²/2) for the fourth moments,
+/// n·q² + G·(q(q+1)/2)² per clustering). Measured: 1.9e-10 at 10⁵ rows, 1.7e-10 at 10⁶ rows (20.4 s for q = 41).
 const BUILD_UNIT: f64 = 1.8e-10;
-/// Seconds per unit of a model's contraction (G·(k² + k·influence columns) per clustering,
+/// Seconds per unit of a model's contraction ((k(k+1)/2)² per influence column and clustering,
 /// k⁴/2 for the fourth moments). Measured: about 4.7e-9 (0.36–0.43 ms per model at k ≈ 14.5,
 /// G = 150, including the model's small QR, which both routes pay).
 const CONTRACT_UNIT: f64 = 4.0e-9;
@@ -46,9 +46,12 @@ impl Workload {
     pub fn moment_seconds(&self) -> f64 {
         let (n, q) = (self.n as f64, self.q as f64);
         let na = self.mean_k + 2.0;
-        let mut build = self.groupings as f64 * n * q * q;
-        // Per cluster: S_g·c̃ over the active coordinates, then one dot product per w column.
-        let mut per_model = self.total_range as f64 * (na * na + self.mean_w * na);
+        let pairs = q * (q + 1.0) / 2.0;
+        let active_pairs = na * (na + 1.0) / 2.0;
+        // Per clustering: the S_g (n·q²) and K = Σ_g σ_gσ_g' (G·P²); per model K·u per
+        // influence column.
+        let mut build = self.groupings as f64 * n * q * q + self.total_range as f64 * pairs * pairs;
+        let mut per_model = self.groupings as f64 * self.mean_w * active_pairs * active_pairs;
         if self.fourth {
             build += n * q.powi(4) / 24.0 + n * q * q / 2.0;
             per_model += na.powi(4) / 2.0;

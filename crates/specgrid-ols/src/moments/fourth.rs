@@ -10,7 +10,7 @@ use faer::linalg::matmul::matmul;
 use faer::{Accum, Mat, MatRef, Par};
 use rayon::prelude::*;
 
-use super::basis::{Basis, ModelVectors, EPS};
+use super::basis::{pair_starts, Basis, ModelVectors, EPS};
 use super::ROUNDING_LAMBDA;
 use crate::finish::BpSums;
 use crate::model_core::CoreFit;
@@ -38,16 +38,6 @@ pub(crate) struct FourthMoments {
 
 /// Per middle index m: the (m+1) × (P − start(m)) block of sums Σ z̃ₗz̃ₘ·(z̃ᵣz̃ₛ), l ≤ m ≤ r ≤ s.
 type Blocks = Vec<Mat<f64>>;
-
-/// Start offsets of each first index in the pair order (length q + 1).
-fn pair_starts(q: usize) -> Vec<usize> {
-    let mut s = Vec::with_capacity(q + 1);
-    s.push(0);
-    for r in 0..q {
-        s.push(s[r] + (q - r));
-    }
-    s
-}
 
 fn empty_blocks(q: usize, starts: &[usize]) -> Blocks {
     let total = starts[q];
