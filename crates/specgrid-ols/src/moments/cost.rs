@@ -7,11 +7,12 @@
 /// machine): 7.6e-10 at 10⁵ rows and 1.4e-9 at 10⁶ rows (23.5 ms per model of mean width 16.5).
 const ROW_UNIT: f64 = 1.0e-9;
 /// Seconds per unit of the one-off moment build (n·(q⁴/24 + q²/2) for the fourth moments,
-/// n·q² + G·(q(q+1)/2)² per clustering). Measured: 1.9e-10 at 10⁵ rows, 1.7e-10 at 10⁶ rows (20.4 s for q = 41).
+/// n·q² + G·(q(q+1)/2)² per clustering). Measured 1.1–1.9e-10 (12.8–20.4 s at 10⁶ rows, q = 41,
+/// depending on the machine's load); the higher value leans the choice towards the row pass.
 const BUILD_UNIT: f64 = 1.8e-10;
 /// Seconds per unit of a model's contraction ((k(k+1)/2)² per influence column and clustering,
-/// k⁴/2 for the fourth moments). Measured: about 4.7e-9 (0.36–0.43 ms per model at k ≈ 14.5,
-/// G = 150, including the model's small QR, which both routes pay).
+/// k⁴/2 for the fourth moments). Measured about 4.6e-9 (0.16 ms per model at k ≈ 14.5, including
+/// the model's small QR, which both routes pay).
 const CONTRACT_UNIT: f64 = 4.0e-9;
 
 /// What a call needs, averaged over its models.
