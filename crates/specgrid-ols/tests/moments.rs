@@ -309,6 +309,12 @@ fn bound_sends_an_exact_fit_to_the_row_pass() {
 }
 
 fn absorbed_check(weights: Option<RowWeights>) {
+    absorbed_check_with(weights, moment_choices(), true);
+}
+
+/// Absorbed design (optionally weighted) fitted by both routes with `opts`; `expect_moments`
+/// says whether most models must have been served by moments.
+fn absorbed_check_with(weights: Option<RowWeights>, opts: FitOptions, expect_moments: bool) {
     let base = random_design(51, 3000, 4, 3, 30, 20);
     let n = base.x.nrows();
     let effect = ClusterIds {
@@ -334,12 +340,38 @@ fn absorbed_check(weights: Option<RowWeights>) {
         })
         .filter(|m| !m.columns.is_empty())
         .collect();
-    let opts = moment_choices();
     let make = || SharedFactor::absorbed(prepared).unwrap();
     let (direct, _) = fit_by(make, CovarianceRoute::Direct, &models, &opts);
     let (moment, stats) = fit_by(make, CovarianceRoute::Moments, &models, &opts);
     compare_all(&direct, &moment);
-    assert!(stats.by_moments > models.len() / 2, "{stats:?}");
+    if expect_moments {
+        assert!(stats.by_moments > models.len() / 2, "{stats:?}");
+    } else {
+        assert_eq!(stats.by_moments, 0, "{stats:?}");
+    }
+}
+
+fn frequency_weights() -> RowWeights {
+    RowWeights {
+        name: "trees_counted".into(),
+        kind: WeightKind::Frequency,
+        values: (0..3000).map(|i| (1 + (i * 13) % 5) as f64).collect(),
+    }
+}
+
+#[test]
+fn frequency_weights_cluster_choices_use_moments() {
+    // Cluster sums of the transformed rows need no per-row factor: served by moments.
+    let mut opts = moment_choices();
+    opts.covariances
+        .retain(|c| !matches!(c, Covariance::Hc0 | Covariance::Hc1));
+    absorbed_check_with(Some(frequency_weights()), opts, true);
+}
+
+#[test]
+fn frequency_weights_with_hc_stay_on_the_row_pass() {
+    // Each row's HC term carries 1/f: not a moment of the transformed rows.
+    absorbed_check_with(Some(frequency_weights()), moment_choices(), false);
 }
 
 #[test]
