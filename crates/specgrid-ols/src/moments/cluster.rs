@@ -35,11 +35,13 @@ pub(crate) struct ClusterGrams {
 }
 
 impl ClusterGrams {
-    /// Memory the build takes for `q` coordinates, in f64 slots: K, the block partials and
-    /// one block of σ_g rows.
-    pub fn slots(_range: usize, q: usize) -> usize {
+    /// Memory the build takes for `range` clusters and `q` coordinates, in f64 slots: K, the
+    /// block partials and the σ_g rows of the blocks being built (two at a time on two
+    /// threads; more threads hold more).
+    pub fn slots(range: usize, q: usize) -> usize {
         let p = q * (q + 1) / 2;
-        (MAX_BLOCKS + 2) * p * p
+        let per_block = MIN_BLOCK_CLUSTERS.max(range.div_ceil(MAX_BLOCKS));
+        (MAX_BLOCKS + 2) * p * p + 2 * per_block * p
     }
 
     /// Builds K and D: rows are bucketed by code (stable, so each S_g sums its rows in row

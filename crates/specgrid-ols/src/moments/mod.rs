@@ -2,11 +2,12 @@
 //! (docs/methods.md, "Covariances from moments"; docs/performance.md, "Choosing the covariance
 //! route").
 //!
-//! Once per design: the per-cluster Gram matrices S_g of Z̃ = [1, centred X, centred Y] for
-//! each clustering the call uses, and the fourth moments of Z̃ (for HC0/HC1 and the
-//! Breusch–Pagan sums). Per model: contractions of those with the model's influence and
-//! residual coordinates, O(G·k²) and O(k⁴), independent of n. Each model's sums carry a
-//! rounding bound; a model whose bound is too loose goes to the row pass instead.
+//! Once per design: for each clustering the call uses, K = Σ_g σ_gσ_g' over the distinct
+//! entries σ_g of the per-cluster Gram matrices S_g of Z̃ = [1, centred X, centred Y]; and the
+//! fourth moments of Z̃ (for HC0/HC1 and the Breusch–Pagan sums). Per model: contractions of
+//! those with the model's influence and residual coordinates, O(k⁴), independent of n and of
+//! the number of clusters. Each model's sums carry a rounding bound; a model whose bound is
+//! too loose goes to the row pass instead.
 
 mod basis;
 mod cluster;
