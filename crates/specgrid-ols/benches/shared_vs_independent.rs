@@ -13,11 +13,13 @@
 use std::time::Instant;
 
 use faer::Mat;
-use rand::{Rng, SeedableRng};
+use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, StandardNormal};
 use rayon::prelude::*;
-use specgrid_ols::{fit_independent, Covariance, Design, FitOptions, ModelSpec, SharedFactor};
+use specgrid_ols::{fit_independent, Covariance, Design, FitOptions, SharedFactor};
+
+mod common;
 
 fn env(name: &str, default: usize) -> usize {
     std::env::var(name)
@@ -49,27 +51,6 @@ fn design(n: usize, p: usize, rng: &mut ChaCha8Rng) -> Design {
     }
 }
 
-fn models(count: usize, p: usize, rng: &mut ChaCha8Rng) -> Vec<ModelSpec> {
-    (0..count)
-        .map(|_| {
-            let k = rng.random_range(5..=15usize).min(p);
-            let mut cols = vec![0];
-            while cols.len() < k {
-                let c = rng.random_range(1..p);
-                if !cols.contains(&c) {
-                    cols.push(c);
-                }
-            }
-            let tracked = vec![cols[1]];
-            ModelSpec {
-                columns: cols,
-                outcome: 0,
-                tracked,
-            }
-        })
-        .collect()
-}
-
 fn main() {
     let n = env("SPECGRID_BENCH_N", 100_000);
     let p = env("SPECGRID_BENCH_P", 30).max(16);
@@ -77,7 +58,7 @@ fn main() {
     let baseline = env("SPECGRID_BENCH_BASELINE", 200).min(count).max(1);
     let mut rng = ChaCha8Rng::seed_from_u64(2024);
     let design = design(n, p, &mut rng);
-    let models = models(count, p, &mut rng);
+    let models = common::random_models(count, p, 5..=15, &mut rng);
     let opts = FitOptions {
         covariances: vec![Covariance::Hc1],
         ..FitOptions::default()

@@ -20,9 +20,10 @@ pub(crate) struct BpSums {
     pub sum_u: f64,
     /// Σ uᵢ².
     pub sum_u2: f64,
-    /// X_S'u in data units, kept order.
+    /// X_S'u in data units, kept order. Only xtu − ū·xt1 is used, so the moment route passes
+    /// the centred coordinates' parts (the offsets' parts cancel exactly).
     pub xtu: Vec<f64>,
-    /// X_S'1 (column sums), kept order.
+    /// X_S'1 (column sums), kept order (the moment route: see `xtu`).
     pub xt1: Vec<f64>,
 }
 

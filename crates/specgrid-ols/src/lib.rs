@@ -8,6 +8,7 @@ mod finish;
 mod independent;
 pub mod inference;
 mod model_core;
+mod moments;
 mod plan;
 mod refine;
 mod row_pass;
@@ -21,4 +22,5 @@ pub use absorb::{
 };
 pub use api::*;
 pub use independent::fit_independent;
+pub use moments::{CovarianceRoute, MomentStats};
 pub use shared::SharedFactor;

@@ -8,6 +8,8 @@ use crate::api::{Covariance, Design, FitOptions};
 /// One way of grouping rows into clusters (a design dimension or the intersection of two).
 #[derive(Debug, Clone)]
 pub(crate) struct Grouping {
+    /// Which clustering: a design dimension, or the intersection of two (lower index first).
+    pub key: (usize, Option<usize>),
     /// Name for errors.
     pub name: String,
     /// Dense code per row.
@@ -122,6 +124,7 @@ fn occupied(codes: &[u32], range: usize) -> usize {
 fn one_dimension(design: &Design, d: usize) -> Grouping {
     let c = &design.clusters[d];
     Grouping {
+        key: (d, None),
         name: c.name.clone(),
         codes: c.codes.clone(),
         range: c.count,
@@ -144,6 +147,7 @@ fn intersection(design: &Design, a: usize, b: usize) -> Grouping {
         .collect();
     let range = ids.len();
     Grouping {
+        key: (a, Some(b)),
         name: format!("{} × {}", ca.name, cb.name),
         codes,
         range,

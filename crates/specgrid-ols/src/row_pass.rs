@@ -113,15 +113,9 @@ pub(crate) fn row_pass(
         .zip(&meats)
         .map(|(core, m)| {
             let cols = if need_hc {
-                core.reported
-                    .iter()
-                    .map(|q| {
-                        w_start
-                            + m.wpos
-                                .iter()
-                                .position(|w| w == q)
-                                .expect("reported in wpos")
-                    })
+                reported_w(core, m)
+                    .into_iter()
+                    .map(|c| w_start + c)
                     .collect()
             } else {
                 Vec::new()
@@ -305,6 +299,20 @@ fn hc_pairs(
             }
         }
     }
+}
+
+/// Position of each reported coefficient among the meats' w columns, in reporting order.
+pub(crate) fn reported_w(core: &CoreFit, meats: &Meats) -> Vec<usize> {
+    core.reported
+        .iter()
+        .map(|q| {
+            meats
+                .wpos
+                .iter()
+                .position(|w| w == q)
+                .expect("reported in wpos")
+        })
+        .collect()
 }
 
 /// Meats with the w positions decided but no sums yet.

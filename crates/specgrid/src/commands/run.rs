@@ -317,8 +317,13 @@ fn estimate_and_write(
         .designs
         .iter()
         .map(|design| {
-            time("factor", || design.factor())
-                .map_err(|e| Failure::Estimation(format!("sample `{}`: {e}", design.sample_name)))
+            let mut factor = time("factor", || design.factor()).map_err(|e| {
+                Failure::Estimation(format!("sample `{}`: {e}", design.sample_name))
+            })?;
+            // Chunks share the factor: the engine weighs a one-off moment build against all of
+            // this design's models, not one chunk's.
+            factor.expect_models(design.models.len());
+            Ok(factor)
         })
         .collect::<Result<Vec<_>, Failure>>()?;
     let mut results = ChunkedResults {
