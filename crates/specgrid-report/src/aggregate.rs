@@ -366,14 +366,19 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
         .enumerate()
         .map(|(d, dim)| {
             let mut between = 0.0;
+            // Members of every option in one pass over the models.
+            let mut by_option: Vec<Vec<usize>> = vec![Vec::new(); dim.options.len()];
+            for (i, m) in input.models.iter().enumerate() {
+                if est[i].is_some() {
+                    by_option[m.choices[d]].push(i);
+                }
+            }
             let options = dim
                 .options
                 .iter()
                 .enumerate()
                 .map(|(o, name)| {
-                    let members: Vec<usize> = (0..input.models.len())
-                        .filter(|&i| input.models[i].choices[d] == o && est[i].is_some())
-                        .collect();
+                    let members = std::mem::take(&mut by_option[o]);
                     let vals: Vec<f64> = members.iter().filter_map(|&i| est[i]).collect();
                     if let Some(mu) = mean(&vals) {
                         between += vals.len() as f64 * (mu - grand).powi(2);

@@ -104,6 +104,16 @@ impl ReportInput {
             }
         }
         let mut models: Vec<ModelEntry> = Vec::new();
+        let option_index: Vec<HashMap<&str, usize>> = dimensions
+            .iter()
+            .map(|d| {
+                d.options
+                    .iter()
+                    .enumerate()
+                    .map(|(i, o)| (o.as_str(), i))
+                    .collect()
+            })
+            .collect();
         let mut index: HashMap<&str, usize> = HashMap::new();
         let mut lead_term: Vec<String> = Vec::new();
         for (n, r) in rows.iter().enumerate() {
@@ -122,9 +132,9 @@ impl ReportInput {
                     let choices = r
                         .choices
                         .iter()
-                        .zip(&dimensions)
-                        .map(|(o, d)| {
-                            d.options.iter().position(|x| x == o).ok_or_else(|| {
+                        .zip(dimensions.iter().zip(&option_index))
+                        .map(|(o, (d, lookup))| {
+                            lookup.get(o.as_str()).copied().ok_or_else(|| {
                                 bad(format!(
                                     "option `{o}` is not one of the options of `{}`; re-render with the study the results came from",
                                     d.name
