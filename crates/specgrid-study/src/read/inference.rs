@@ -260,6 +260,9 @@ fn has_none(study: &Study, block: &str) -> bool {
                 ControlRole::Alternatives {
                     include_none: true,
                     ..
+                } | ControlRole::Pick {
+                    include_none: true,
+                    ..
                 }
             )
     })
