@@ -208,13 +208,35 @@ fn decomposition_lines(d: &DecompositionResult) -> (String, Vec<String>) {
     (heading, lines)
 }
 
+/// Each result asked for as (heading, lines, meaning, caution), in report order.
+fn parts(a: &AcrossGrid) -> Vec<(String, Vec<String>, &'static str, &'static str)> {
+    let mut out = Vec::new();
+    if let Some(j) = &a.joint_test {
+        out.push((
+            joint_heading(j),
+            joint_lines(j),
+            JOINT_MEANING,
+            JOINT_CAUTION,
+        ));
+    }
+    if let Some(s) = &a.stability {
+        let (heading, lines) = stability_lines(s);
+        out.push((heading, lines, STABILITY_MEANING, STABILITY_CAUTION));
+    }
+    if let Some(d) = &a.decomposition {
+        let (heading, lines) = decomposition_lines(d);
+        out.push((heading, lines, DECOMPOSITION_MEANING, DECOMPOSITION_CAUTION));
+    }
+    out
+}
+
 /// The HTML section (empty when nothing was asked for).
 pub fn html_section(a: Option<&AcrossGrid>) -> String {
     let Some(a) = a else {
         return String::new();
     };
     let mut h = String::from("<h2>Inference across the grid</h2>\n");
-    let mut part = |heading: String, lines: Vec<String>, meaning: &str, caution: &str| {
+    for (heading, lines, meaning, caution) in parts(a) {
         h.push_str(&format!("<p>{}</p>\n<ul>\n", html_escape(&heading)));
         for l in lines {
             h.push_str(&format!("<li>{}</li>\n", html_escape(&l)));
@@ -224,22 +246,6 @@ pub fn html_section(a: Option<&AcrossGrid>) -> String {
             html_escape(meaning),
             html_escape(caution)
         ));
-    };
-    if let Some(j) = &a.joint_test {
-        part(
-            joint_heading(j),
-            joint_lines(j),
-            JOINT_MEANING,
-            JOINT_CAUTION,
-        );
-    }
-    if let Some(s) = &a.stability {
-        let (heading, lines) = stability_lines(s);
-        part(heading, lines, STABILITY_MEANING, STABILITY_CAUTION);
-    }
-    if let Some(d) = &a.decomposition {
-        let (heading, lines) = decomposition_lines(d);
-        part(heading, lines, DECOMPOSITION_MEANING, DECOMPOSITION_CAUTION);
     }
     h
 }
@@ -250,7 +256,7 @@ pub fn markdown_section(a: Option<&AcrossGrid>) -> String {
         return String::new();
     };
     let mut m = String::from("## Inference across the grid\n\n");
-    let mut part = |heading: String, lines: Vec<String>, meaning: &str, caution: &str| {
+    for (heading, lines, meaning, caution) in parts(a) {
         m.push_str(&format!("{}\n\n", md_escape(&heading)));
         for l in lines {
             m.push_str(&format!("- {}\n", md_escape(&l)));
@@ -260,22 +266,6 @@ pub fn markdown_section(a: Option<&AcrossGrid>) -> String {
             md_escape(meaning),
             md_escape(caution)
         ));
-    };
-    if let Some(j) = &a.joint_test {
-        part(
-            joint_heading(j),
-            joint_lines(j),
-            JOINT_MEANING,
-            JOINT_CAUTION,
-        );
-    }
-    if let Some(s) = &a.stability {
-        let (heading, lines) = stability_lines(s);
-        part(heading, lines, STABILITY_MEANING, STABILITY_CAUTION);
-    }
-    if let Some(d) = &a.decomposition {
-        let (heading, lines) = decomposition_lines(d);
-        part(heading, lines, DECOMPOSITION_MEANING, DECOMPOSITION_CAUTION);
     }
     m
 }

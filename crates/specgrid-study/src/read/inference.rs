@@ -3,6 +3,7 @@
 
 use toml::de::{DeTable, DeValue};
 
+use super::report::{apply_option_pairs, read_option_pairs, OptionPairs};
 use super::values::{Reader, Val};
 use crate::plan::{
     BootstrapDraws, DecompositionSettings, DimensionKind, InferenceSettings, JointTestSettings,
@@ -23,7 +24,7 @@ pub(crate) struct RawInference {
     /// Short-model block names with their offsets.
     short_at: Vec<(String, usize)>,
     /// The long model's (decision, offset, option, offset) pairs.
-    long_pairs: Option<Vec<(String, usize, String, usize)>>,
+    long_pairs: Option<OptionPairs>,
 }
 
 /// Reads `[inference]`; an absent table asks for nothing.
@@ -61,7 +62,12 @@ pub(crate) fn read_inference(r: &mut Reader<'_>, value: Option<&Val<'_>>) -> Opt
                 r.check_keys(table, &["long_model"], "`decomposition` in [inference]");
                 if let Some(lm) = table.get("long_model") {
                     if let Some(lm) = r.table(lm, "`long_model` of `decomposition`") {
-                        raw.long_pairs = Some(option_pairs(r, lm));
+                        raw.long_pairs = Some(read_option_pairs(
+                            r,
+                            lm,
+                            "`long_model` in [inference]",
+                            "long_model = { \"plot size\" = \"in\" }",
+                        ));
                     }
                 }
             }
@@ -164,30 +170,6 @@ pub(crate) fn bootstrap_draws(
     }
 }
 
-fn option_pairs(r: &mut Reader<'_>, t: &DeTable<'_>) -> Vec<(String, usize, String, usize)> {
-    let mut pairs = Vec::new();
-    for (key, value) in t.iter() {
-        let place = format!("`{}` of `long_model` in [inference]", key.get_ref());
-        if let DeValue::String(_) = value.get_ref() {
-            if let Some(option) = r.string(value, &place) {
-                pairs.push((
-                    key.get_ref().to_string(),
-                    key.span().start,
-                    option,
-                    value.span().start,
-                ));
-            }
-        } else {
-            r.report(
-                value.span().start,
-                format!("{place} must name one option, as text"),
-                Some("e.g. long_model = { \"plot size\" = \"in\" }".into()),
-            );
-        }
-    }
-    pairs
-}
-
 /// Checks the block and decision names against the study and fills in the long model: named
 /// decisions take the named option; optional blocks are in, alternatives take their first
 /// option other than `none`, nested controls take every step, and outcome, focus and sample
@@ -219,9 +201,8 @@ pub(crate) fn check_inference(
     }
     if let Some(pairs) = raw.long_pairs {
         let dimensions = crate::grid::Layout::new(study).dimensions;
-        let dim_names: Vec<&str> = dimensions.iter().map(|d| d.name.as_str()).collect();
         let baseline = study.report.baseline.clone();
-        let long: Vec<usize> = dimensions
+        let mut long: Vec<usize> = dimensions
             .iter()
             .enumerate()
             .map(|(d, dim)| match dim.kind {
@@ -231,22 +212,7 @@ pub(crate) fn check_inference(
                 _ => baseline.as_ref().map_or(0, |b| b[d]),
             })
             .collect();
-        let mut long = long;
-        for (dim, dim_at, option, option_at) in pairs {
-            let Some(d) = dimensions.iter().position(|d| d.name == dim) else {
-                super::settings::unknown_decision(r, dim_at, "the long model", &dim, &dim_names);
-                continue;
-            };
-            let options: Vec<&str> = dimensions[d].options.iter().map(String::as_str).collect();
-            match options.iter().position(|o| *o == option) {
-                Some(o) => long[d] = o,
-                None => r.report(
-                    option_at,
-                    format!("`{option}` is not an option of decision `{dim}`"),
-                    Some(suggestion(&option, &options)),
-                ),
-            }
-        }
+        apply_option_pairs(r, &dimensions, pairs, "the long model", &mut long);
         settings.decomposition = Some(DecompositionSettings { long_model: long });
     }
     (r.problem_count() == before).then_some(settings)

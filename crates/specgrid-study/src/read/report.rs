@@ -53,7 +53,12 @@ pub(crate) fn read_report(r: &mut Reader<'_>, value: Option<&Val<'_>>) -> Option
     }
     if let Some(v) = t.get("baseline") {
         if let Some(b) = r.table(v, "`baseline` in [report]") {
-            raw.baseline = Some(read_baseline(r, b));
+            raw.baseline = Some(read_option_pairs(
+                r,
+                b,
+                "`baseline` in [report]",
+                "baseline = { focus = \"level\", sample = \"all plots\" }",
+            ));
         }
     }
     (r.problem_count() == before).then_some(raw)
@@ -82,12 +87,22 @@ fn read_at(r: &mut Reader<'_>, t: &DeTable<'_>) -> EvaluationValues {
     }
 }
 
-fn read_baseline(r: &mut Reader<'_>, t: &DeTable<'_>) -> Vec<(String, usize, String, usize)> {
+/// `decision = "option"` pairs as written, with the offsets of both names.
+pub(crate) type OptionPairs = Vec<(String, usize, String, usize)>;
+
+/// Reads a table of `decision = "option"` pairs (`place` names the table in messages,
+/// `example` shows a correct one); a value that is not text is a positioned problem.
+pub(crate) fn read_option_pairs(
+    r: &mut Reader<'_>,
+    t: &DeTable<'_>,
+    place: &str,
+    example: &str,
+) -> OptionPairs {
     let mut pairs = Vec::new();
     for (key, value) in t.iter() {
-        let place = format!("`{}` of `baseline` in [report]", key.get_ref());
+        let at = format!("`{}` of {place}", key.get_ref());
         if let DeValue::String(_) = value.get_ref() {
-            if let Some(option) = r.string(value, &place) {
+            if let Some(option) = r.string(value, &at) {
                 pairs.push((
                     key.get_ref().to_string(),
                     key.span().start,
@@ -98,12 +113,39 @@ fn read_baseline(r: &mut Reader<'_>, t: &DeTable<'_>) -> Vec<(String, usize, Str
         } else {
             r.report(
                 value.span().start,
-                format!("{place} must name one option, as text"),
-                Some("e.g. baseline = { focus = \"level\", sample = \"all plots\" }".into()),
+                format!("{at} must name one option, as text"),
+                Some(format!("e.g. {example}")),
             );
         }
     }
     pairs
+}
+
+/// Sets `choices[d]` to the named option of each named decision; unknown decisions and
+/// options are positioned problems with suggestions (`who` names the table in messages).
+pub(crate) fn apply_option_pairs(
+    r: &mut Reader<'_>,
+    dimensions: &[crate::plan::Dimension],
+    pairs: OptionPairs,
+    who: &str,
+    choices: &mut [usize],
+) {
+    let dim_names: Vec<&str> = dimensions.iter().map(|d| d.name.as_str()).collect();
+    for (dim, dim_at, option, option_at) in pairs {
+        let Some(d) = dimensions.iter().position(|d| d.name == dim) else {
+            super::settings::unknown_decision(r, dim_at, who, &dim, &dim_names);
+            continue;
+        };
+        let options: Vec<&str> = dimensions[d].options.iter().map(String::as_str).collect();
+        match options.iter().position(|o| *o == option) {
+            Some(o) => choices[d] = o,
+            None => r.report(
+                option_at,
+                format!("`{option}` is not an option of decision `{dim}`"),
+                Some(super::settings::option_hint(&option, &dim, &options)),
+            ),
+        }
+    }
 }
 
 /// Turns the baseline's names into an option index per decision (unnamed decisions take their
@@ -122,24 +164,9 @@ pub(crate) fn check_report(
         return Some(settings);
     };
     let dimensions = crate::grid::Layout::new(study).dimensions;
-    let dim_names: Vec<&str> = dimensions.iter().map(|d| d.name.as_str()).collect();
     let before = r.problem_count();
     let mut choices = vec![0; dimensions.len()];
-    for (dim, dim_at, option, option_at) in pairs {
-        let Some(d) = dimensions.iter().position(|d| d.name == dim) else {
-            super::settings::unknown_decision(r, dim_at, "the baseline", &dim, &dim_names);
-            continue;
-        };
-        let options: Vec<&str> = dimensions[d].options.iter().map(String::as_str).collect();
-        match options.iter().position(|o| *o == option) {
-            Some(o) => choices[d] = o,
-            None => r.report(
-                option_at,
-                format!("`{option}` is not an option of decision `{dim}`"),
-                Some(super::settings::option_hint(&option, &dim, &options)),
-            ),
-        }
-    }
+    apply_option_pairs(r, &dimensions, pairs, "the baseline", &mut choices);
     if r.problem_count() != before {
         return None;
     }
