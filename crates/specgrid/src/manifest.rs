@@ -29,6 +29,20 @@ pub struct SampleRows {
     /// What absorbing fixed effects and applying weights did, for designs that do either.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub absorption: Option<Absorption>,
+    /// How the engine computed the residual-based covariance sums (docs/methods.md,
+    /// "Covariances from moments").
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub covariance_sums: Option<CovarianceSums>,
+}
+
+/// Models of one design whose HC/BP/cluster sums came from the union's moments, and models the
+/// rounding bound sent back to the row pass (the rest used the row pass from the start).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct CovarianceSums {
+    /// Models served by the moments.
+    pub from_moments: usize,
+    /// Models whose bound was too loose, recomputed by the row pass.
+    pub row_pass_fallbacks: usize,
 }
 
 /// The record of one absorption pass (docs/methods.md, "Fixed effects and weights").

@@ -131,6 +131,7 @@ pub fn write_manifest(
     assembly: &Assembly,
     rows_read: usize,
     inputs: &Inputs,
+    covariance_sums: &[specgrid_ols::MomentStats],
 ) -> Result<(), Failure> {
     let manifest = Manifest {
         format: MANIFEST_FORMAT.into(),
@@ -142,12 +143,19 @@ pub fn write_manifest(
         samples: assembly
             .designs
             .iter()
-            .map(|d| SampleRows {
+            .enumerate()
+            .map(|(i, d)| SampleRows {
                 sample: d.sample_name.clone(),
                 rows_in_sample: d.account.rows_in_sample,
                 rows_used: d.account.rows_kept,
                 models: d.models.len(),
                 absorption: crate::manifest::Absorption::of(d, plan),
+                covariance_sums: covariance_sums
+                    .get(i)
+                    .map(|s| crate::manifest::CovarianceSums {
+                        from_moments: s.by_moments,
+                        row_pass_fallbacks: s.fallbacks,
+                    }),
             })
             .collect(),
         seed: plan.seed,

@@ -96,6 +96,7 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         effects: converted,
         residuals,
         failed,
+        covariance_sums,
         ..
     } = written_models;
     if let Some(pairs) = &residuals {
@@ -152,7 +153,14 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         report::render(&record, study_text, &report_rows, extras, staging.dir())
     })?;
     let (rerun_text, verdict) = rerun::compare_and_judge(&staging, &study, &options.rerun)?;
-    rerun::write_manifest(&staging, &plan, &assembly, data.n_rows, &inputs)?;
+    rerun::write_manifest(
+        &staging,
+        &plan,
+        &assembly,
+        data.n_rows,
+        &inputs,
+        &covariance_sums,
+    )?;
     rerun::pause_for_tests();
     let written = time("write", || staging.commit())?;
 
@@ -284,6 +292,9 @@ struct ChunkedResults {
     failed: usize,
     /// (model, coefficient, choice) triples the wild bootstrap could not serve.
     wild_failures: usize,
+    /// Per design: models whose covariance sums came from the moments, and those sent back to
+    /// the row pass by their rounding bound (for manifest.json).
+    covariance_sums: Vec<specgrid_ols::MomentStats>,
 }
 
 /// Fits every model of the plan, one shared factorisation per design made once, in chunks of
@@ -332,6 +343,7 @@ fn estimate_and_write(
         residuals: None,
         failed: 0,
         wild_failures: 0,
+        covariance_sums: Vec::new(),
     };
     let mut cache = EvaluationCache::default();
     let mut problems = Vec::new();
@@ -417,6 +429,7 @@ fn estimate_and_write(
         results.failed += estimated.iter().filter(|(_, e)| e.fit.is_err()).count();
     }
     progress.finish_and_clear();
+    results.covariance_sums = factors.iter().map(|f| f.moment_stats()).collect();
     if results.wild_failures > 0 {
         eprintln!(
             "warning: the wild cluster bootstrap could not serve {} coefficient(s) (e.g. a coefficient collinear with the others on a sample's rows); those keep the cluster-robust p-value and interval",
