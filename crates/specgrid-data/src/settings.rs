@@ -107,6 +107,14 @@ impl SampleDesign {
         }
     }
 
+    /// The design the engine fits: the absorbed and weighted one when there is one (its rows
+    /// are demeaned and weighted), otherwise the plain design.
+    pub fn fitted_design(&self) -> &specgrid_ols::Design {
+        self.absorbed
+            .as_ref()
+            .map_or(&self.design, |prepared| &prepared.design)
+    }
+
     /// What the models of this design absorb, as source column names (empty when nothing).
     pub fn absorbed_columns<'p>(&self, plan: &'p Plan) -> Vec<&'p str> {
         self.settings

@@ -14,7 +14,7 @@ use specgrid_ols::inference::{
     gelbach, joint_curve_test_across, oster, BootstrapWeights, ControlBlock, CurveModel, CurvePart,
     JointOptions, OsterInputs,
 };
-use specgrid_ols::{Covariance, Design, FitOptions, ModelError, ModelFit, ModelSpec, SharedFactor};
+use specgrid_ols::{Covariance, FitOptions, ModelError, ModelFit, ModelSpec, SharedFactor};
 use specgrid_report::{
     AcrossGrid, BlockPart, DecompositionResult, JointTestResult, StabilityResult, StoredEffects,
 };
@@ -61,10 +61,6 @@ struct Prepared<'a> {
     fits: Vec<Result<ModelFit, ModelError>>,
     /// The focus column of each model, when its focus form is one column.
     focus: Vec<Option<usize>>,
-}
-
-fn engine_design(d: &SampleDesign) -> &Design {
-    d.absorbed.as_ref().map_or(&d.design, |a| &a.design)
 }
 
 fn classical(fit_options: &FitOptions) -> FitOptions {
@@ -137,7 +133,7 @@ fn prepare<'a>(
     design: &'a SampleDesign,
     fit_options: &FitOptions,
 ) -> Result<Prepared<'a>, Failure> {
-    let factor = SharedFactor::new_for_refits(engine_design(design))
+    let factor = SharedFactor::new_for_refits(design.fitted_design())
         .map_err(|e| Failure::Estimation(format!("sample `{}`: {e}", design.sample_name)))?;
     let mut specs = Vec::new();
     let mut focus = Vec::new();
@@ -383,7 +379,7 @@ fn stability(
                 .collect();
             let base = *base_rss.entry(key).or_insert_with(|| {
                 if controls.is_empty() {
-                    let y = engine_design(p.design).y.col(short.outcome);
+                    let y = p.design.fitted_design().y.col(short.outcome);
                     Some(y.iter().map(|v| v * v).sum())
                 } else {
                     let spec = ModelSpec {

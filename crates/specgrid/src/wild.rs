@@ -53,7 +53,7 @@ pub fn check_cluster_counts(
 ) -> Result<(), Failure> {
     for s in slots(plan, fit_options) {
         for d in designs {
-            let cl = &engine_design(d).clusters[s.dim];
+            let cl = &d.fitted_design().clusters[s.dim];
             if cl.count > MAX_CLUSTERS {
                 return Err(Failure::Study(format!(
                     "the error choice `{}` asks for the wild cluster bootstrap, but sample `{}` has {} clusters of `{}` (at most {MAX_CLUSTERS} are supported); with that many clusters the ordinary cluster-robust errors are accurate: write {{ cluster = \"{}\" }} instead",
@@ -67,11 +67,6 @@ pub fn check_cluster_counts(
         }
     }
     Ok(())
-}
-
-/// The design the engine fitted (prepared when effects were absorbed or weights applied).
-fn engine_design(d: &SampleDesign) -> &specgrid_ols::Design {
-    d.absorbed.as_ref().map_or(&d.design, |a| &a.design)
 }
 
 /// Replaces the p-value and interval of every wild-bootstrap slot of the fits of `design`'s
@@ -91,7 +86,7 @@ pub fn apply(
     if slots.is_empty() {
         return 0;
     }
-    let data = engine_design(design);
+    let data = design.fitted_design();
     fits.par_iter_mut()
         .zip(specs)
         .zip(members)

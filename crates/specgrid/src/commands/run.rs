@@ -232,11 +232,7 @@ fn baseline_residuals(
     let fit = result.fit.as_ref().ok()?;
     // With absorbed effects or weights the fit lives on the prepared design: within (and
     // weighted) fitted values and residuals.
-    let design = result
-        .design
-        .absorbed
-        .as_ref()
-        .map_or(&result.design.design, |prepared| &prepared.design);
+    let design = result.design.fitted_design();
     let outcome = result.design.outcome_columns[plan.models[b].outcome]?;
     let n = design.x.nrows();
     let step = n.div_ceil(RESIDUAL_POINTS).max(1);
