@@ -58,6 +58,7 @@ struct Prepared<'a> {
     /// Plan indices of the models, parallel to `specs` and `fits`.
     members: Vec<usize>,
     specs: Vec<ModelSpec>,
+    /// Classical fits, parallel to `specs`; empty when only the decomposition was asked for.
     fits: Vec<Result<ModelFit, ModelError>>,
     /// The focus column of each model, when its focus form is one column.
     focus: Vec<Option<usize>>,
@@ -85,9 +86,12 @@ pub fn run(
         return Ok(None);
     }
     let resolver = BlockResolver::new(study, plan);
+    // The joint test and the stability bounds need every model's classical fit; the
+    // decomposition follows one model and fits what it needs itself.
+    let curve_wide = asked.joint_test.is_some() || asked.stability.is_some();
     let prepared = designs
         .iter()
-        .map(|d| prepare(plan, &resolver, d, fit_options))
+        .map(|d| prepare(plan, &resolver, d, fit_options, curve_wide))
         .collect::<Result<Vec<_>, Failure>>()?;
     let mut summary = AcrossGrid::default();
     let mut stability_rows = Vec::new();
@@ -132,6 +136,7 @@ fn prepare<'a>(
     resolver: &BlockResolver,
     design: &'a SampleDesign,
     fit_options: &FitOptions,
+    fit_all: bool,
 ) -> Result<Prepared<'a>, Failure> {
     let factor = SharedFactor::new_for_refits(design.fitted_design())
         .map_err(|e| Failure::Estimation(format!("sample `{}`: {e}", design.sample_name)))?;
@@ -156,7 +161,11 @@ fn prepare<'a>(
         focus.push(single);
         specs.push(spec);
     }
-    let fits = factor.fit_many(&specs, &classical(fit_options));
+    let fits = if fit_all {
+        factor.fit_many(&specs, &classical(fit_options))
+    } else {
+        Vec::new()
+    };
     Ok(Prepared {
         design,
         factor,
