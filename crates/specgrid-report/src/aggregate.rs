@@ -373,6 +373,27 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
                     by_option[m.choices[d]].push(i);
                 }
             }
+            let panel = dim.panel();
+            if panel.per_candidate() {
+                // The variance share still compares the sets; the rows are per candidate.
+                for members in &by_option {
+                    let vals: Vec<f64> = members.iter().filter_map(|&i| est[i]).collect();
+                    if let Some(mu) = mean(&vals) {
+                        between += vals.len() as f64 * (mu - grand).powi(2);
+                    }
+                }
+                return DecisionInfluence {
+                    dimension: dim.name.clone(),
+                    variance_share: if total_ss > 0.0 {
+                        between / total_ss
+                    } else {
+                        0.0
+                    },
+                    rank: 0,
+                    per_candidate: true,
+                    options: candidate_influence(input, d, &panel, &est),
+                };
+            }
             let options = dim
                 .options
                 .iter()
@@ -425,6 +446,7 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
                     0.0
                 },
                 rank: 0,
+                per_candidate: false,
                 options,
             }
         })
@@ -444,6 +466,60 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
         ranked.push(out[i].clone());
     }
     ranked
+}
+
+/// Per candidate term of a pick block: the models whose set contains it against those whose
+/// set does not (a difference in means; with every set in the grid each candidate is in the
+/// same share of sets, so the comparison is balanced over the other decisions).
+fn candidate_influence(
+    input: &ReportInput,
+    d: usize,
+    panel: &crate::input::Panel<'_>,
+    est: &[Option<f64>],
+) -> Vec<OptionInfluence> {
+    let rows = panel.labels.len();
+    let mut with: Vec<Vec<f64>> = vec![Vec::new(); rows];
+    let mut significant = vec![vec![0usize; input.error_labels.len()]; rows];
+    let mut members = vec![0usize; rows];
+    let (mut total_sum, mut total_n) = (0.0, 0usize);
+    for (i, m) in input.models.iter().enumerate() {
+        let Some(v) = est[i] else { continue };
+        total_sum += v;
+        total_n += 1;
+        for row in panel.row_indices(m.choices[d]) {
+            with[row].push(v);
+            members[row] += 1;
+            for (e, f) in m.effects.iter().enumerate() {
+                if f.is_some_and(|f| significance(&f, input.significance_level) == Some(true)) {
+                    significant[row][e] += 1;
+                }
+            }
+        }
+    }
+    with.into_iter()
+        .enumerate()
+        .map(|(row, mut vals)| {
+            let n = vals.len();
+            let sum: f64 = vals.iter().sum();
+            let without = total_n - n;
+            let shift =
+                (n > 0 && without > 0).then(|| sum / n as f64 - (total_sum - sum) / without as f64);
+            let mean_with = (n > 0).then(|| sum / n as f64);
+            vals.sort_by(f64::total_cmp);
+            OptionInfluence {
+                option: panel.labels[row].clone(),
+                models: n,
+                mean: mean_with,
+                median: quantile_sorted(&vals, 0.5),
+                share_significant: significant[row]
+                    .iter()
+                    .map(|&k| (members[row] > 0).then(|| k as f64 / members[row] as f64))
+                    .collect(),
+                shift_vs_reference: shift,
+                shift_pairs: without,
+            }
+        })
+        .collect()
 }
 
 fn diagnostics(input: &ReportInput) -> Diagnostics {

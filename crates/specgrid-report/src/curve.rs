@@ -24,7 +24,8 @@ pub(crate) struct Mark {
     pub(crate) share_significant: f64,
     pub(crate) share_known: bool,
     pub(crate) has_baseline: bool,
-    /// Per dimension, per option: share of the group's models taking it.
+    /// Per dimension, per panel row (an option, or a pick block's candidate term): share of
+    /// the group's models taking it.
     pub(crate) option_shares: Vec<Vec<f64>>,
 }
 
@@ -94,7 +95,7 @@ pub(crate) fn group(
 ) -> Vec<Mark> {
     let n = pts.len();
     let groups = n.min(max_marks).max(1);
-    let dims = &report.input.dimensions;
+    let panels: Vec<_> = report.input.dimensions.iter().map(|d| d.panel()).collect();
     (0..groups)
         .filter_map(|g| {
             let (a, b) = (g * n / groups, (g + 1) * n / groups);
@@ -103,10 +104,12 @@ pub(crate) fn group(
                 return None;
             }
             let mut option_shares: Vec<Vec<f64>> =
-                dims.iter().map(|d| vec![0.0; d.options.len()]).collect();
+                panels.iter().map(|p| vec![0.0; p.labels.len()]).collect();
             for p in members {
                 for (d, &c) in p.choices.iter().enumerate() {
-                    option_shares[d][c] += 1.0 / members.len() as f64;
+                    for row in panels[d].row_indices(c) {
+                        option_shares[d][row] += 1.0 / members.len() as f64;
+                    }
                 }
             }
             let known: Vec<bool> = members.iter().filter_map(|p| p.significant).collect();

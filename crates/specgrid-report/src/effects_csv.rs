@@ -23,64 +23,79 @@ pub const EFFECTS_COLUMNS: [&str; 12] = [
     "turning_point_se",
 ];
 
-/// Shortest round-trip text of a finite number (exponent form for very small or very large
-/// magnitudes, so a p-value of 1e-120 is not written as 120 zeros); empty for missing or
-/// non-finite values.
-pub(crate) fn cell(v: Option<f64>) -> String {
-    match v {
-        Some(x) if x.is_finite() => {
-            if x != 0.0 && (x.abs() < 1e-5 || x.abs() >= 1e16) {
-                format!("{x:e}")
-            } else {
-                format!("{x}")
-            }
-        }
-        _ => String::new(),
-    }
-}
-
 /// Renders `effects.csv` (models in input order, covariance choices in study order; failed
 /// models are left out, they are listed in models.csv).
+///
+/// Written straight into one string, numbers formatted in place: at two million models a
+/// string per cell was tens of millions of allocations. Text fields are quoted as the `csv`
+/// crate quotes them (only when they hold a comma, a quote or a line break), and [`parse`]
+/// reads the file back with that crate.
 pub fn render(report: &Report) -> String {
     let input = &report.input;
-    let mut w = csv::WriterBuilder::new()
-        .terminator(csv::Terminator::Any(b'\n'))
-        .from_writer(Vec::new());
-    let mut rows: Vec<Vec<String>> = vec![EFFECTS_COLUMNS.iter().map(|s| s.to_string()).collect()];
+    let mut out = String::with_capacity(64 + input.models.len() * input.error_labels.len() * 130);
+    out.push_str(&EFFECTS_COLUMNS.join(","));
+    out.push('\n');
+    let labels: Vec<String> = input
+        .error_labels
+        .iter()
+        .map(|l| csv_text(l).into_owned())
+        .collect();
     for m in &input.models {
-        for (e, label) in input.error_labels.iter().enumerate() {
+        let id = csv_text(&m.model_id);
+        for (e, label) in labels.iter().enumerate() {
             let Some(f) = m.effects[e] else { continue };
             let se = f.std_error.filter(|s| s.is_finite() && *s > 0.0);
             let half = se.map(|s| {
                 let q = crate::stats::interval_multiplier(input.confidence_level, f.df);
                 q * s
             });
-            rows.push(vec![
-                m.model_id.clone(),
-                label.clone(),
-                cell(Some(f.estimate)),
-                cell(f.std_error),
-                cell(half.map(|h| f.estimate - h)),
-                cell(half.map(|h| f.estimate + h)),
-                cell(f.p_value.or(se.map(|s| two_sided_p(f.estimate / s, f.df)))),
-                cell(Some(f.df)),
-                cell(f.proportional_change.map(|d| d.value)),
-                cell(f.proportional_change.and_then(|d| d.std_error)),
-                cell(f.turning_point.map(|d| d.value)),
-                cell(f.turning_point.and_then(|d| d.std_error)),
-            ]);
+            out.push_str(&id);
+            out.push(',');
+            out.push_str(label);
+            for value in [
+                Some(f.estimate),
+                f.std_error,
+                half.map(|h| f.estimate - h),
+                half.map(|h| f.estimate + h),
+                f.p_value.or(se.map(|s| two_sided_p(f.estimate / s, f.df))),
+                Some(f.df),
+                f.proportional_change.map(|d| d.value),
+                f.proportional_change.and_then(|d| d.std_error),
+                f.turning_point.map(|d| d.value),
+                f.turning_point.and_then(|d| d.std_error),
+            ] {
+                out.push(',');
+                push_cell(&mut out, value);
+            }
+            out.push('\n');
         }
     }
-    for r in rows {
-        // Writing into memory cannot fail; a failure would only truncate the text.
-        if w.write_record(&r).is_err() {
-            break;
-        }
+    out
+}
+
+/// A text field as CSV: quoted, with quotes doubled, only when it holds a comma, a quote or a
+/// line break.
+fn csv_text(text: &str) -> std::borrow::Cow<'_, str> {
+    if text.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", text.replace('"', "\"\"")).into()
+    } else {
+        text.into()
     }
-    w.into_inner()
-        .ok()
-        .and_then(|b| String::from_utf8(b).ok())
-        .unwrap_or_default()
+}
+
+/// Shortest round-trip text of a finite number (exponent form for very small or very large
+/// magnitudes, so a p-value of 1e-120 is not written as 120 zeros); empty for missing or
+/// non-finite values. Appended to `out` without allocating.
+fn push_cell(out: &mut String, v: Option<f64>) {
+    use std::fmt::Write;
+    if let Some(x) = v.filter(|x| x.is_finite()) {
+        // Writing into a String cannot fail.
+        let _ = if x != 0.0 && (x.abs() < 1e-5 || x.abs() >= 1e16) {
+            write!(out, "{x:e}")
+        } else {
+            write!(out, "{x}")
+        };
+    }
 }
 
 /// Every model's effects read back from `effects.csv`, keyed by model id, then by covariance

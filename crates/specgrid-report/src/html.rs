@@ -139,11 +139,16 @@ fn influence_table(report: &Report) -> String {
     h.push_str("<th>shift vs first option</th><th>pairs</th></tr></thead>\n<tbody>\n");
     for d in &s.decisions {
         h.push_str(&format!(
-            "<tr><th colspan=\"{}\">{}. {} — explains {} of the variance</th></tr>\n",
+            "<tr><th colspan=\"{}\">{}. {} — explains {} of the variance{}</th></tr>\n",
             6 + report.input.error_labels.len(),
             d.rank,
             esc(&d.dimension),
-            pct(Some(d.variance_share))
+            pct(Some(d.variance_share)),
+            if d.per_candidate {
+                "; one row per candidate term: the models whose set contains it, and as shift their mean minus the mean of the models whose set does not (pairs: those models)"
+            } else {
+                ""
+            }
         ));
         for o in &d.options {
             h.push_str(&format!(

@@ -12,6 +12,103 @@ pub struct DimensionInfo {
     pub name: String,
     /// Option names in study order; the first is the reference for influence comparisons.
     pub options: Vec<String>,
+    /// For a pick block (every set of some of its candidate terms is an option), the candidate
+    /// terms' labels; each option is named by its members' labels joined with " + " (or is
+    /// `none`). The report then shows one row per candidate instead of one per set. Empty for
+    /// every other decision.
+    pub candidates: Vec<String>,
+}
+
+impl DimensionInfo {
+    /// An ordinary decision: one report row per option.
+    pub fn new(name: impl Into<String>, options: Vec<String>) -> DimensionInfo {
+        DimensionInfo {
+            name: name.into(),
+            options,
+            candidates: Vec::new(),
+        }
+    }
+
+    /// The rows the report shows for this decision: one per option, or for a pick block one
+    /// per candidate term with each option's members.
+    pub(crate) fn panel(&self) -> Panel<'_> {
+        let members = candidate_sets(self);
+        Panel {
+            labels: if members.is_some() {
+                &self.candidates
+            } else {
+                &self.options
+            },
+            members,
+        }
+    }
+}
+
+/// How the report lays out one decision (see [`DimensionInfo::panel`]).
+pub(crate) struct Panel<'a> {
+    /// Row labels: the options, or the candidate terms of a pick block.
+    pub labels: &'a [String],
+    /// For a pick block, the candidate rows of each option; `None` for an ordinary decision.
+    pub members: Option<Vec<Vec<u32>>>,
+}
+
+impl Panel<'_> {
+    /// Whether rows are candidate terms (a pick block) rather than options.
+    pub fn per_candidate(&self) -> bool {
+        self.members.is_some()
+    }
+
+    /// The rows a model taking `option` marks, as indices into `labels`.
+    pub fn row_indices(&self, option: usize) -> RowIndices<'_> {
+        match &self.members {
+            Some(sets) => RowIndices::Set(sets[option].iter()),
+            None => RowIndices::One(Some(option)),
+        }
+    }
+}
+
+/// Iterator over the rows one option marks.
+pub(crate) enum RowIndices<'a> {
+    /// An ordinary decision: the option's own row.
+    One(Option<usize>),
+    /// A pick block: the option's candidate terms.
+    Set(std::slice::Iter<'a, u32>),
+}
+
+impl Iterator for RowIndices<'_> {
+    type Item = usize;
+    fn next(&mut self) -> Option<usize> {
+        match self {
+            RowIndices::One(o) => o.take(),
+            RowIndices::Set(it) => it.next().map(|&r| r as usize),
+        }
+    }
+}
+
+/// Each option's candidate terms, read back from the option names; `None` when the decision is
+/// not a pick block or a name does not split into its candidates (a label that itself contains
+/// " + "), in which case the report falls back to one row per option.
+fn candidate_sets(dim: &DimensionInfo) -> Option<Vec<Vec<u32>>> {
+    if dim.candidates.is_empty() {
+        return None;
+    }
+    let index: std::collections::HashMap<&str, u32> = dim
+        .candidates
+        .iter()
+        .enumerate()
+        .map(|(i, c)| (c.as_str(), i as u32))
+        .collect();
+    dim.options
+        .iter()
+        .map(|name| {
+            if name == "none" && !index.contains_key("none") {
+                return Some(Vec::new());
+            }
+            name.split(" + ")
+                .map(|part| index.get(part).copied())
+                .collect()
+        })
+        .collect()
 }
 
 /// Whether a model produced numbers.

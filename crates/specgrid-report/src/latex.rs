@@ -132,12 +132,18 @@ fn figure(report: &Report) -> String {
     // Option panel: one row per option, below the curve.
     let mut row = -0.5;
     for (d, dim) in report.input.dimensions.iter().enumerate() {
+        let panel = dim.panel();
         f.push_str(&format!(
-            "\\node[left,font=\\scriptsize\\bfseries] at (0,{row:.2}) {{{}}};\n",
-            esc(&dim.name)
+            "\\node[left,font=\\scriptsize\\bfseries] at (0,{row:.2}) {{{}{}}};\n",
+            esc(&dim.name),
+            if panel.per_candidate() {
+                " (candidate terms)"
+            } else {
+                ""
+            }
         ));
         row -= 0.3;
-        for (o, option) in dim.options.iter().enumerate() {
+        for (o, option) in panel.labels.iter().enumerate() {
             f.push_str(&format!(
                 "\\node[left] at (0,{row:.2}) {{{}}};\n",
                 esc(option)

@@ -63,7 +63,7 @@ pub use effect::{
 };
 pub use effects_csv::{parse as parse_effects_csv, StoredEffects, EFFECTS_COLUMNS};
 pub use input::{DimensionInfo, ModelEntry, ModelStatus, ReportInput};
-pub use rows::{dimensions_from_rows, ReportHeader, ResultRow};
+pub use rows::{dimensions_from_rows, lead_term_label, ReportHeader, ResultRow};
 pub use summary::*;
 
 /// Why a report cannot be built or written.

@@ -81,8 +81,10 @@ The specification curve is drawn in `report.html`; every figure is explained in 
                 count(o.models),
                 num(o.mean, 4),
                 num(o.median, 4),
-                if i == 0 {
+                if i == 0 && !d.per_candidate {
                     "reference".into()
+                } else if d.per_candidate {
+                    format!("{} (with − without)", signed(o.shift_vs_reference))
                 } else {
                     signed(o.shift_vs_reference)
                 },

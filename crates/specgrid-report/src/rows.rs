@@ -80,12 +80,27 @@ pub fn dimensions_from_rows(names: &[String], rows: &[ResultRow]) -> Vec<Dimensi
                     }
                 }
             }
-            DimensionInfo {
-                name: name.clone(),
-                options,
-            }
+            DimensionInfo::new(name.clone(), options)
         })
         .collect()
+}
+
+/// What a coefficient-scale report calls its effect, given each model's first tracked term:
+/// that term when every model's is the same, else "the first focus term".
+pub fn lead_term_label<'a>(terms: impl IntoIterator<Item = &'a str>) -> String {
+    let mut distinct: Vec<&str> = Vec::new();
+    for t in terms {
+        if !distinct.contains(&t) {
+            distinct.push(t);
+            if distinct.len() > 1 {
+                break;
+            }
+        }
+    }
+    match distinct.as_slice() {
+        [one] => (*one).to_string(),
+        _ => "the first focus term".to_string(),
+    }
 }
 
 impl ReportInput {
@@ -182,13 +197,7 @@ impl ReportInput {
             effect.p_value = r.p_value;
             models[i].effects[e] = Some(effect);
         }
-        let mut terms: Vec<&String> = lead_term.iter().collect();
-        terms.sort();
-        terms.dedup();
-        let effect_label = match terms.as_slice() {
-            [one] => (*one).clone(),
-            _ => "the first focus term".to_string(),
-        };
+        let effect_label = lead_term_label(lead_term.iter().map(String::as_str));
         Ok(ReportInput {
             title: header.title,
             scale: Scale::Coefficient,

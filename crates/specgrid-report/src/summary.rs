@@ -147,11 +147,18 @@ pub struct DecisionInfluence {
     pub variance_share: f64,
     /// Rank by `variance_share`, 1 = most influential.
     pub rank: usize,
-    /// Per option, in study order (the first is the reference).
+    /// True for a pick block: `options` then lists its candidate terms, not its sets (written
+    /// only when true).
+    #[serde(skip_serializing_if = "std::ops::Not::not")]
+    pub per_candidate: bool,
+    /// Per option, in study order (the first is the reference); for a pick block, per
+    /// candidate term in study order.
     pub options: Vec<OptionInfluence>,
 }
 
-/// Figures for one option of a decision.
+/// Figures for one option of a decision. For a pick block's candidate term, the models are
+/// those whose set contains the term, `shift_vs_reference` is their mean effect minus the mean
+/// of the models whose set does not, and `shift_pairs` counts the latter.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct OptionInfluence {
     /// Option name.

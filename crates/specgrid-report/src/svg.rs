@@ -49,7 +49,8 @@ pub fn spec_curve(report: &Report) -> String {
     let row_h = 14.0;
     let gap = 10.0;
     let panel_top = curve_bottom + 40.0;
-    let rows: usize = input.dimensions.iter().map(|d| d.options.len()).sum();
+    let panels: Vec<_> = input.dimensions.iter().map(|d| d.panel()).collect();
+    let rows: usize = panels.iter().map(|p| p.labels.len()).sum();
     let height = panel_top + rows as f64 * row_h + input.dimensions.len() as f64 * gap + 30.0;
 
     let mut lo = pts
@@ -178,11 +179,16 @@ pub fn spec_curve(report: &Report) -> String {
     ));
     for (d, dim) in input.dimensions.iter().enumerate() {
         s.push_str(&format!(
-            "<text class=\"dim-label\" x=\"4\" y=\"{:.1}\">{}</text>\n",
+            "<text class=\"dim-label\" x=\"4\" y=\"{:.1}\">{}{}</text>\n",
             row_y + row_h - 3.0,
-            esc(&dim.name)
+            esc(&dim.name),
+            if panels[d].per_candidate() {
+                " (rows: candidate terms)"
+            } else {
+                ""
+            }
         ));
-        for (o, option) in dim.options.iter().enumerate() {
+        for (o, option) in panels[d].labels.iter().enumerate() {
             let label_y = row_y + row_h - 3.0;
             s.push_str(&format!(
                 "<text class=\"opt-label\" x=\"{:.1}\" y=\"{label_y:.1}\" text-anchor=\"end\">{}</text>\n<line class=\"row-rule\" x1=\"{LEFT}\" x2=\"{:.1}\" y1=\"{:.1}\" y2=\"{:.1}\"/>\n",

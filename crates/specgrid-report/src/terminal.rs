@@ -1,5 +1,6 @@
 //! The compact summary printed to the terminal.
 
+use crate::summary::OptionInfluence;
 use crate::text::{count, num, pct};
 use crate::Report;
 
@@ -74,15 +75,34 @@ pub fn render(report: &Report) -> String {
     }
     out.push_str("\nDecisions, by share of the variance of the estimates each explains:\n");
     for d in s.decisions.iter().take(TOP_DECISIONS) {
-        let shifts: Vec<String> = d
-            .options
+        let compared = if d.per_candidate {
+            &d.options[..]
+        } else {
+            d.options.get(1..).unwrap_or_default()
+        };
+        let shown = largest_shifts(compared, SHIFTS_SHOWN);
+        let mut shifts: Vec<String> = shown
             .iter()
-            .skip(1)
             .map(|o| format!("{} {}", o.option, signed(o.shift_vs_reference)))
             .collect();
-        let reference = d.options.first().map_or("", |o| o.option.as_str());
+        if shown.len() < compared.len() {
+            shifts.push(format!(
+                "… (largest {} of {}; all in summary.json)",
+                shown.len(),
+                count(compared.len())
+            ));
+        }
+        if compared.is_empty() {
+            shifts.push("one option, nothing to compare".to_string());
+        }
+        let against = if d.per_candidate {
+            "with vs without each term".to_string()
+        } else {
+            let reference = d.options.first().map_or("", |o| o.option.as_str());
+            format!("shift vs {reference}")
+        };
         out.push_str(&format!(
-            "  {}. {:<22} {:>6}  shift vs {reference}: {}\n",
+            "  {}. {:<22} {:>6}  {against}: {}\n",
             d.rank,
             d.dimension,
             pct(Some(d.variance_share)),
@@ -122,4 +142,21 @@ pub fn signed(v: Option<f64>) -> String {
         Some(x) if x.is_finite() && x > 0.0 => format!("+{}", num(Some(x), 3)),
         other => num(other, 3),
     }
+}
+
+/// Most options (or candidate terms) listed per decision in the terminal summary.
+const SHIFTS_SHOWN: usize = 8;
+
+/// All of `options` when there are at most `limit`, else the `limit` with the largest absolute
+/// shift, kept in study order.
+fn largest_shifts(options: &[OptionInfluence], limit: usize) -> Vec<&OptionInfluence> {
+    if options.len() <= limit {
+        return options.iter().collect();
+    }
+    let mut order: Vec<usize> = (0..options.len()).collect();
+    let size = |i: usize| options[i].shift_vs_reference.map_or(-1.0, f64::abs);
+    order.sort_by(|&a, &b| size(b).total_cmp(&size(a)).then(a.cmp(&b)));
+    order.truncate(limit);
+    order.sort_unstable();
+    order.into_iter().map(|i| &options[i]).collect()
 }

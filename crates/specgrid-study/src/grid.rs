@@ -107,11 +107,14 @@ impl Layout {
     /// `controls` decision, then each alternatives block), and `sample`.
     pub fn new(study: &Study) -> Layout {
         let mut dimensions = Vec::new();
+        // (dimension, candidate labels) of each pick block, filled in once `push` is done.
+        let mut pick_candidates: Vec<(usize, Vec<String>)> = Vec::new();
         let mut push = |name: &str, kind: DimensionKind, options: Vec<String>| {
             dimensions.push(Dimension {
                 name: name.to_string(),
                 kind,
                 options,
+                candidates: Vec::new(),
             });
             dimensions.len() - 1
         };
@@ -182,8 +185,10 @@ impl Layout {
                     // optional blocks (docs/study-file.md).
                     let labels: Vec<String> = terms.iter().map(Term::label).collect();
                     let names = picks::option_names(&labels, sizes, *include_none);
+                    let dim = push(&block.name, DimensionKind::Alternatives, names);
+                    pick_candidates.push((dim, labels));
                     BlockSource::Pick {
-                        dim: push(&block.name, DimensionKind::Alternatives, names),
+                        dim,
                         sets: picks::Unranker::new(terms.len(), sizes, *include_none),
                     }
                 }
@@ -195,6 +200,9 @@ impl Layout {
             DimensionKind::Sample,
             study.samples.iter().map(|s| s.name.clone()).collect(),
         );
+        for (dim, labels) in pick_candidates {
+            dimensions[dim].candidates = labels;
+        }
         let mut table = TermTable::default();
         let focus_terms = study
             .focus

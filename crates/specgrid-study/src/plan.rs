@@ -350,6 +350,10 @@ pub struct Dimension {
     /// Option names, in the order the study lists them. The first is the dimension's reference
     /// option for influence comparisons.
     pub options: Vec<String>,
+    /// For a pick block, the labels of its candidate terms in study order (each option is a
+    /// set of them, named by their labels joined with " + "); empty for every other decision.
+    /// The report summarizes a pick decision per candidate, not per set.
+    pub candidates: Vec<String>,
 }
 
 /// One model of the grid.

@@ -40,7 +40,7 @@ pub const FIXED_COLUMNS: [&str; 25] = [
 
 /// Statistics shared by every row of one model.
 #[derive(Debug, Clone, Default)]
-pub struct ModelStats {
+pub struct ModelStats<'a> {
     /// Rows used.
     pub n_obs: Option<u64>,
     /// Coefficients estimated.
@@ -66,7 +66,7 @@ pub struct ModelStats {
     /// Names of the columns dropped as collinear, joined by "; ".
     pub dropped: String,
     /// The outcome form's label.
-    pub outcome: String,
+    pub outcome: &'a str,
 }
 
 /// Estimate and inference of one term under one covariance choice.
@@ -88,22 +88,37 @@ pub struct TermValues {
     pub df: Option<f64>,
 }
 
-/// Column-wise builder of the results table.
-pub struct ResultsTable {
-    dimension_names: Vec<String>,
-    model_id: Vec<String>,
-    dimensions: Vec<Vec<String>>,
-    errors: Vec<String>,
-    term: Vec<String>,
-    values: Vec<TermValues>,
-    stats: Vec<ModelStats>,
-    status: Vec<String>,
-    message: Vec<String>,
+/// What every row of one model shares: its id, its options, its statistics and status.
+/// Strings are borrowed from the plan and the designs, which outlive the table, so a row costs
+/// no allocation (at two million models the owned copies were a fifth of the run).
+#[derive(Debug, Clone)]
+pub struct ModelRows<'a> {
+    /// Model id.
+    pub model_id: &'a str,
+    /// Option name per decision dimension.
+    pub choices: Vec<&'a str>,
+    /// Statistics of the fit (empty for a failed model).
+    pub stats: ModelStats<'a>,
+    /// `ok` or `failed`.
+    pub status: &'static str,
+    /// Why the model failed (empty when it did not).
+    pub message: String,
 }
 
-impl ResultsTable {
+/// Column-wise builder of the results table: one entry per model and, per row, the model it
+/// belongs to, the covariance choice, the term and its numbers.
+pub struct ResultsTable<'a> {
+    dimension_names: Vec<String>,
+    models: Vec<ModelRows<'a>>,
+    model: Vec<u32>,
+    errors: Vec<&'a str>,
+    term: Vec<&'a str>,
+    values: Vec<TermValues>,
+}
+
+impl<'a> ResultsTable<'a> {
     /// An empty table with one column per decision dimension.
-    pub fn new(dimension_names: &[String]) -> Result<ResultsTable, Failure> {
+    pub fn new(dimension_names: &[String]) -> Result<ResultsTable<'a>, Failure> {
         for name in dimension_names {
             if FIXED_COLUMNS.contains(&name.as_str()) {
                 return Err(Failure::Study(format!(
@@ -113,51 +128,44 @@ impl ResultsTable {
         }
         Ok(ResultsTable {
             dimension_names: dimension_names.to_vec(),
-            model_id: Vec::new(),
-            dimensions: vec![Vec::new(); dimension_names.len()],
+            models: Vec::new(),
+            model: Vec::new(),
             errors: Vec::new(),
             term: Vec::new(),
             values: Vec::new(),
-            stats: Vec::new(),
-            status: Vec::new(),
-            message: Vec::new(),
         })
     }
 
     /// Number of rows so far.
     #[allow(clippy::len_without_is_empty)]
     pub fn len(&self) -> usize {
-        self.model_id.len()
+        self.model.len()
     }
 
-    /// Appends one row.
-    #[allow(clippy::too_many_arguments)]
-    pub fn push(
-        &mut self,
-        model_id: &str,
-        choices: &[String],
-        errors: &str,
-        term: &str,
-        values: TermValues,
-        stats: &ModelStats,
-        status: &str,
-        message: &str,
-    ) {
-        self.model_id.push(model_id.to_string());
-        for (column, choice) in self.dimensions.iter_mut().zip(choices) {
-            column.push(choice.clone());
-        }
-        self.errors.push(errors.to_string());
-        self.term.push(term.to_string());
+    /// Starts a model: the rows pushed next belong to it.
+    pub fn begin_model(&mut self, model: ModelRows<'a>) {
+        self.models.push(model);
+    }
+
+    /// Appends one row of the model begun last.
+    pub fn push(&mut self, errors: &'a str, term: &'a str, values: TermValues) {
+        debug_assert!(!self.models.is_empty(), "push before begin_model");
+        self.model.push(self.models.len() as u32 - 1);
+        self.errors.push(errors);
+        self.term.push(term);
         self.values.push(values);
-        self.stats.push(stats.clone());
-        self.status.push(status.to_string());
-        self.message.push(message.to_string());
     }
 
     /// Builds the polars frame (column order: model_id, dimensions, then the fixed columns).
     pub fn to_frame(&self) -> Result<DataFrame, Failure> {
-        let text = |name: &str, v: &[String]| Column::new(name.into(), v);
+        let owner = |i: usize| &self.models[self.model[i] as usize];
+        let text = |name: &str, f: &dyn Fn(usize) -> &'a str| {
+            let v: Vec<&str> = (0..self.len()).map(f).collect();
+            Column::new(name.into(), v)
+        };
+        // Text the models own (not borrowed for 'a), gathered by the caller.
+        let owned_text = |name: &str, v: Vec<&str>| Column::new(name.into(), v);
+        let rows = 0..self.len();
         let float = |name: &str, f: &dyn Fn(usize) -> Option<f64>| {
             let v: Vec<Option<f64>> = (0..self.len()).map(f).collect();
             Column::new(name.into(), v)
@@ -166,15 +174,15 @@ impl ResultsTable {
             let v: Vec<Option<u64>> = (0..self.len()).map(f).collect();
             Column::new(name.into(), v)
         };
-        let mut columns = vec![text("model_id", &self.model_id)];
-        for (name, values) in self.dimension_names.iter().zip(&self.dimensions) {
-            columns.push(text(name, values));
+        let mut columns = vec![text("model_id", &|i| owner(i).model_id)];
+        for (d, name) in self.dimension_names.iter().enumerate() {
+            columns.push(text(name, &|i| owner(i).choices[d]));
         }
         let v = &self.values;
-        let s = &self.stats;
+        let s = |i: usize| &owner(i).stats;
         columns.extend([
-            text("errors", &self.errors),
-            text("term", &self.term),
+            text("errors", &|i| self.errors[i]),
+            text("term", &|i| self.term[i]),
             float("estimate", &|i| v[i].estimate),
             float("std_error", &|i| v[i].std_error),
             float("t_stat", &|i| v[i].t_stat),
@@ -182,62 +190,36 @@ impl ResultsTable {
             float("ci_low", &|i| v[i].ci_low),
             float("ci_high", &|i| v[i].ci_high),
             float("df", &|i| v[i].df),
-            int("n_obs", &|i| s[i].n_obs),
-            int("n_params", &|i| s[i].n_params),
-            float("r_squared", &|i| s[i].r_squared),
-            float("adj_r_squared", &|i| s[i].adj_r_squared),
-            float("resid_sd", &|i| s[i].resid_sd),
-            float("condition_number", &|i| s[i].condition_number),
-            float("het_test_stat", &|i| s[i].het_test_stat),
-            float("het_test_p_value", &|i| s[i].het_test_p_value),
-            float("within_r_squared", &|i| s[i].within_r_squared),
-            Column::new(
-                "absorbed".into(),
-                s.iter().map(|m| m.absorbed.as_str()).collect::<Vec<_>>(),
+            int("n_obs", &|i| s(i).n_obs),
+            int("n_params", &|i| s(i).n_params),
+            float("r_squared", &|i| s(i).r_squared),
+            float("adj_r_squared", &|i| s(i).adj_r_squared),
+            float("resid_sd", &|i| s(i).resid_sd),
+            float("condition_number", &|i| s(i).condition_number),
+            float("het_test_stat", &|i| s(i).het_test_stat),
+            float("het_test_p_value", &|i| s(i).het_test_p_value),
+            float("within_r_squared", &|i| s(i).within_r_squared),
+            owned_text(
+                "absorbed",
+                rows.clone().map(|i| s(i).absorbed.as_str()).collect(),
             ),
-            Column::new(
-                "weights".into(),
-                s.iter().map(|m| m.weights.as_str()).collect::<Vec<_>>(),
+            owned_text(
+                "weights",
+                rows.clone().map(|i| s(i).weights.as_str()).collect(),
             ),
-            Column::new(
-                "dropped".into(),
-                s.iter().map(|m| m.dropped.as_str()).collect::<Vec<_>>(),
+            owned_text(
+                "dropped",
+                rows.clone().map(|i| s(i).dropped.as_str()).collect(),
             ),
-            Column::new(
-                "outcome_term".into(),
-                s.iter().map(|m| m.outcome.as_str()).collect::<Vec<_>>(),
+            text("outcome_term", &|i| s(i).outcome),
+            text("status", &|i| owner(i).status),
+            owned_text(
+                "message",
+                rows.clone().map(|i| owner(i).message.as_str()).collect(),
             ),
-            text("status", &self.status),
-            text("message", &self.message),
         ]);
         DataFrame::new(self.len(), columns)
             .map_err(|e| Failure::Output(format!("cannot assemble the results table: {e}")))
-    }
-}
-
-impl ResultsTable {
-    /// The rows as the report crate reads them.
-    pub fn report_rows(&self) -> Vec<specgrid_report::ResultRow> {
-        (0..self.len())
-            .map(|i| specgrid_report::ResultRow {
-                model_id: self.model_id[i].clone(),
-                choices: self.dimensions.iter().map(|d| d[i].clone()).collect(),
-                errors: self.errors[i].clone(),
-                term: self.term[i].clone(),
-                estimate: self.values[i].estimate,
-                std_error: self.values[i].std_error,
-                df: self.values[i].df,
-                p_value: self.values[i].p_value,
-                n_obs: self.stats[i].n_obs,
-                n_params: self.stats[i].n_params,
-                r_squared: self.stats[i].r_squared,
-                resid_sd: self.stats[i].resid_sd,
-                het_test_p_value: self.stats[i].het_test_p_value,
-                outcome: self.stats[i].outcome.clone(),
-                status: self.status[i].clone(),
-                message: self.message[i].clone(),
-            })
-            .collect()
     }
 }
 

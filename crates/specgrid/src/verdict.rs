@@ -203,10 +203,10 @@ mod tests {
             title: "t".into(),
             scale: Scale::Coefficient,
             effect_label: "x".into(),
-            dimensions: vec![DimensionInfo {
-                name: "d".into(),
-                options: vec!["a".into(), "b".into(), "c".into(), "e".into()],
-            }],
+            dimensions: vec![DimensionInfo::new(
+                "d",
+                vec!["a".into(), "b".into(), "c".into(), "e".into()],
+            )],
             error_labels: vec!["hc1".into()],
             significance_level: 0.05,
             confidence_level: 0.95,

@@ -80,6 +80,7 @@ pub fn plan(
             name: "sample".into(),
             kind: DimensionKind::Sample,
             options: samples.iter().map(|s| s.name.clone()).collect(),
+            candidates: Vec::new(),
         }],
         terms,
         outcomes,

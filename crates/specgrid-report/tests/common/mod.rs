@@ -39,14 +39,8 @@ pub fn small_grid() -> ReportInput {
         scale: Scale::Coefficient,
         effect_label: "x".into(),
         dimensions: vec![
-            DimensionInfo {
-                name: "A".into(),
-                options: vec!["a0".into(), "a1".into()],
-            },
-            DimensionInfo {
-                name: "B".into(),
-                options: vec!["b0".into(), "b1".into()],
-            },
+            DimensionInfo::new("A", vec!["a0".into(), "a1".into()]),
+            DimensionInfo::new("B", vec!["b0".into(), "b1".into()]),
         ],
         error_labels: vec!["classical".into(), "hc1".into()],
         significance_level: 0.05,
@@ -84,9 +78,11 @@ pub fn big_grid(per_dim: usize) -> ReportInput {
     let names = ["outcome", "focus", "plot size", "irrigation", "sample"];
     let dimensions: Vec<DimensionInfo> = names
         .iter()
-        .map(|n| DimensionInfo {
-            name: n.to_string(),
-            options: (0..per_dim).map(|o| format!("{n} option {o}")).collect(),
+        .map(|n| {
+            DimensionInfo::new(
+                *n,
+                (0..per_dim).map(|o| format!("{n} option {o}")).collect(),
+            )
         })
         .collect();
     let total = per_dim.pow(5);

@@ -8,7 +8,7 @@ use std::path::Path;
 use polars::prelude::*;
 use serde::{Deserialize, Serialize};
 use specgrid_report::{
-    DimensionInfo, Report, ReportHeader, ReportInput, ResultRow, Scale, StoredEffects,
+    DimensionInfo, ModelEntry, Report, ReportHeader, ReportInput, ResultRow, Scale, StoredEffects,
 };
 
 use crate::exit::Failure;
@@ -29,6 +29,10 @@ pub struct RunRecord {
     pub data_fingerprint: String,
     /// Decision dimensions with their options, in study order.
     pub dimensions: Vec<(String, Vec<String>)>,
+    /// Candidate term labels of each pick block, by dimension name (the report shows a pick
+    /// decision per candidate); absent when the study has none.
+    #[serde(default, skip_serializing_if = "std::collections::BTreeMap::is_empty")]
+    pub candidates: std::collections::BTreeMap<String, Vec<String>>,
     /// The effect scale the study asked for (`[report] scale`); effects on any scale other than
     /// `coefficient` are re-read from `effects.csv` when re-rendering.
     #[serde(default = "coefficient_word")]
@@ -111,13 +115,46 @@ pub fn render(
     Ok(report.terminal())
 }
 
-/// Builds the report from result rows and the extras.
-fn build(
+/// Builds the report from the run's models (as [`crate::commands::run`] makes them from the
+/// fits, without going through result rows), writes its files into `dir` and returns the
+/// terminal summary. Gives the same report as re-rendering the folder's `models.parquet`.
+pub fn render_models(
     record: &RunRecord,
     study_text: String,
-    rows: &[ResultRow],
+    error_labels: Vec<String>,
+    models: Vec<ModelEntry>,
+    effect_label: String,
     extras: Extras,
-) -> Result<Report, Failure> {
+    dir: &Path,
+) -> Result<String, Failure> {
+    let (header, dimensions) = header_and_dimensions(record, study_text);
+    let input = ReportInput {
+        title: header.title,
+        scale: Scale::Coefficient,
+        effect_label,
+        dimensions,
+        error_labels,
+        significance_level: header.significance_level,
+        confidence_level: header.confidence_level,
+        baseline_model_id: header.baseline_model_id,
+        models,
+        study_text: header.study_text,
+        data_fingerprint: header.data_fingerprint,
+        baseline_residuals: None,
+        across_grid: None,
+    };
+    let report = finish(record, input, extras)?;
+    report
+        .write_all(dir)
+        .map_err(|e| Failure::Output(e.to_string()))?;
+    Ok(report.terminal())
+}
+
+/// The report header and decisions a run recorded in run.json.
+fn header_and_dimensions(
+    record: &RunRecord,
+    study_text: String,
+) -> (ReportHeader, Vec<DimensionInfo>) {
     let header = ReportHeader {
         title: record.title.clone(),
         significance_level: record.significance_level,
@@ -132,10 +169,27 @@ fn build(
         .map(|(name, options)| DimensionInfo {
             name: name.clone(),
             options: options.clone(),
+            candidates: record.candidates.get(name).cloned().unwrap_or_default(),
         })
         .collect();
-    let mut input = ReportInput::from_rows(header, dimensions, rows)
+    (header, dimensions)
+}
+
+/// Builds the report from result rows and the extras.
+fn build(
+    record: &RunRecord,
+    study_text: String,
+    rows: &[ResultRow],
+    extras: Extras,
+) -> Result<Report, Failure> {
+    let (header, dimensions) = header_and_dimensions(record, study_text);
+    let input = ReportInput::from_rows(header, dimensions, rows)
         .map_err(|e| Failure::Output(format!("cannot build the report: {e}")))?;
+    finish(record, input, extras)
+}
+
+/// Puts the effects on the study's scale, adds the extras and computes the aggregates.
+fn finish(record: &RunRecord, mut input: ReportInput, extras: Extras) -> Result<Report, Failure> {
     if let Some(effects) = &extras.effects {
         let scale = Scale::parse(&record.scale).ok_or_else(|| {
             Failure::Data(format!(

@@ -6,7 +6,7 @@ use std::time::Instant;
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use specgrid_data::{Assembly, LoadedData, SampleDesign};
 use specgrid_ols::{Covariance, FitOptions, ModelError, ModelFit};
-use specgrid_report::{Scale, StoredEffects};
+use specgrid_report::{Effect, ModelEntry, ModelStatus, Scale, StoredEffects};
 
 use specgrid_study::Plan;
 
@@ -15,7 +15,7 @@ use super::rerun::{self, Inputs, RerunOptions};
 use crate::effects::{self, EvaluationCache, Recipe};
 use crate::exit::Failure;
 use crate::output::Staging;
-use crate::results::{ModelStats, ResultsTable, TermValues};
+use crate::results::{ModelRows, ModelStats, ResultsTable, TermValues};
 use crate::results_stream::ChunkWriter;
 use crate::timings::{self, time};
 
@@ -92,7 +92,8 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         &staging,
     )?;
     let ChunkedResults {
-        report_rows,
+        report_models,
+        lead_terms,
         effects: converted,
         residuals,
         failed,
@@ -118,6 +119,12 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
             .dimensions
             .iter()
             .map(|d| (d.name.clone(), d.options.clone()))
+            .collect(),
+        candidates: plan
+            .dimensions
+            .iter()
+            .filter(|d| !d.candidates.is_empty())
+            .map(|d| (d.name.clone(), d.candidates.clone()))
             .collect(),
         scale: plan.report.scale.word().to_string(),
         effect_label: if converted.is_some() {
@@ -150,7 +157,15 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         across_grid: across.map(|a| a.summary),
     };
     let terminal = time("report", || {
-        report::render(&record, study_text, &report_rows, extras, staging.dir())
+        report::render_models(
+            &record,
+            study_text,
+            plan.errors.iter().map(|e| e.label()).collect(),
+            report_models,
+            specgrid_report::lead_term_label(lead_terms.iter().map(String::as_str)),
+            extras,
+            staging.dir(),
+        )
     })?;
     let (rerun_text, verdict) = rerun::compare_and_judge(&staging, &study, &options.rerun)?;
     rerun::write_manifest(
@@ -278,8 +293,11 @@ fn fit_options(plan: &Plan, assembly: &Assembly) -> Result<FitOptions, Failure> 
 
 /// What the chunked estimation keeps for the report once every chunk is written.
 struct ChunkedResults {
-    /// Result rows of each model's first tracked term (all the report reads).
-    report_rows: Vec<specgrid_report::ResultRow>,
+    /// Every model as the report sees it: the first tracked term under each covariance choice.
+    report_models: Vec<ModelEntry>,
+    /// The distinct first tracked terms (two at most are kept: the report only needs to know
+    /// whether every model's is the same).
+    lead_terms: Vec<String>,
     /// Effects on the study's scale, when it is not `coefficient`.
     effects: Option<StoredEffects>,
     /// The baseline's (fitted, residual) pairs.
@@ -334,7 +352,8 @@ fn estimate_and_write(
         })
         .collect::<Result<Vec<_>, Failure>>()?;
     let mut results = ChunkedResults {
-        report_rows: Vec::new(),
+        report_models: Vec::with_capacity(n),
+        lead_terms: Vec::new(),
         effects: recipes.map(|_| StoredEffects::new()),
         residuals: None,
         failed: 0,
@@ -343,6 +362,7 @@ fn estimate_and_write(
     };
     let mut cache = EvaluationCache::default();
     let mut problems = Vec::new();
+    let labels = RowLabels::of(plan);
     for start in (0..n).step_by(chunk) {
         let end = (start + chunk).min(n);
         let mut slots: Vec<Option<Estimated<'_>>> = (start..end).map(|_| None).collect();
@@ -401,9 +421,14 @@ fn estimate_and_write(
             .transpose()?;
         for (index, result) in &estimated {
             let tracked = tracked_columns(plan, result.design, *index)?;
-            append_model(plan, *index, result, &mut table, Some(&tracked));
+            append_model(plan, &labels, *index, result, &mut table, Some(&tracked));
             if let Some(terms) = terms.as_mut() {
-                append_model(plan, *index, result, terms, None);
+                append_model(plan, &labels, *index, result, terms, None);
+            }
+            if let Some(entry) =
+                report_entry(plan, *index, result, &tracked, &mut results.lead_terms)
+            {
+                results.report_models.push(entry);
             }
         }
         time("write", || -> Result<(), Failure> {
@@ -413,7 +438,6 @@ fn estimate_and_write(
             }
             Ok(())
         })?;
-        results.report_rows.extend(lead_rows(table.report_rows()));
         if let (Some(recipes), Some(stored)) = (recipes, results.effects.as_mut()) {
             problems.extend(convert_effects(
                 plan, data, &estimated, recipes, scale, &mut cache, stored,
@@ -446,20 +470,72 @@ fn estimate_and_write(
     Ok(results)
 }
 
-/// The rows of each model's first tracked term: all the report reads (it takes each model's
-/// first term), so the rest need not stay in memory.
-fn lead_rows(rows: Vec<specgrid_report::ResultRow>) -> Vec<specgrid_report::ResultRow> {
-    let mut lead: Option<(String, String)> = None;
-    rows.into_iter()
-        .filter(|r| {
-            match &lead {
-                Some((id, term)) if *id == r.model_id => return *term == r.term,
-                _ => {}
-            }
-            lead = Some((r.model_id.clone(), r.term.clone()));
-            true
-        })
-        .collect()
+/// One model as the report sees it, made straight from its fit: the same entry
+/// `ReportInput::from_rows` builds from the model's rows in models.csv (its first tracked
+/// term under each covariance choice), without the rows' strings. `None` where the model has
+/// no row (a fit with no tracked coefficient), as there. Adds the model's first tracked term
+/// to `lead_terms` when it is a new one (at most two are kept).
+fn report_entry(
+    plan: &Plan,
+    index: usize,
+    estimated: &Estimated<'_>,
+    tracked: &[usize],
+    lead_terms: &mut Vec<String>,
+) -> Option<ModelEntry> {
+    let model = &plan.models[index];
+    let outcome_label = super::outcome_label(plan, model.outcome);
+    let names = &estimated.design.design.x_names;
+    let (status, effects, lead_column, stats) = match &estimated.fit {
+        Ok(fit) => {
+            let lead = fit
+                .coefficients
+                .iter()
+                .find(|c| tracked.contains(&c.column))?;
+            let effects = lead
+                .inference
+                .iter()
+                .map(|inf| {
+                    let mut e = Effect::coefficient(lead.estimate, Some(inf.std_error), inf.df);
+                    e.p_value = Some(inf.p_value);
+                    Some(e)
+                })
+                .collect();
+            let stats = (
+                Some(fit.n_obs as u64),
+                Some(fit.n_params as u64),
+                Some(fit.r_squared),
+                Some(fit.resid_sd),
+                fit.breusch_pagan.map(|b| b.p_value),
+            );
+            (ModelStatus::Ok, effects, lead.column, stats)
+        }
+        Err(error) => {
+            let lead = *tracked.first()?;
+            (
+                ModelStatus::Failed(error.to_string()),
+                vec![None; plan.errors.len()],
+                lead,
+                (None, None, None, None, None),
+            )
+        }
+    };
+    let term = &names[lead_column];
+    if lead_terms.len() < 2 && !lead_terms.contains(term) {
+        lead_terms.push(term.clone());
+    }
+    let (n_obs, n_params, r_squared, resid_sd, het_p_value) = stats;
+    Some(ModelEntry {
+        model_id: model.id.clone(),
+        choices: model.choices.clone(),
+        status,
+        effects,
+        n_obs,
+        n_params,
+        r_squared,
+        resid_sd,
+        het_p_value,
+        outcome_label,
+    })
 }
 
 fn progress_bar(total: u64, quiet: bool) -> ProgressBar {
@@ -487,23 +563,44 @@ fn tracked_columns(
         .map_err(|e| Failure::Data(e.to_string()))
 }
 
+/// Labels every row of a run repeats, made once so the results table can borrow them.
+struct RowLabels {
+    /// Per covariance choice, its results label.
+    errors: Vec<String>,
+    /// Per outcome form, its label.
+    outcomes: Vec<String>,
+}
+
+impl RowLabels {
+    fn of(plan: &Plan) -> RowLabels {
+        RowLabels {
+            errors: plan.errors.iter().map(|e| e.label()).collect(),
+            outcomes: (0..plan.outcomes.len())
+                .map(|o| super::outcome_label(plan, o))
+                .collect(),
+        }
+    }
+}
+
 /// Appends the rows of one model: one per covariance choice and reported term. `only` limits the
 /// terms to those union columns (the tracked ones); `None` writes every reported coefficient.
-fn append_model(
-    plan: &Plan,
+fn append_model<'a>(
+    plan: &'a Plan,
+    labels: &'a RowLabels,
     index: usize,
-    estimated: &Estimated<'_>,
-    table: &mut ResultsTable,
+    estimated: &Estimated<'a>,
+    table: &mut ResultsTable<'a>,
     only: Option<&[usize]>,
 ) {
     let model = &plan.models[index];
-    let choices: Vec<String> = plan
+    let choices: Vec<&str> = plan
         .choice_names(model)
-        .iter()
-        .map(|(_, option)| option.to_string())
+        .into_iter()
+        .map(|(_, option)| option)
         .collect();
-    let names = &estimated.design.design.x_names;
-    let outcome = super::outcome_label(plan, model.outcome);
+    let design = estimated.design;
+    let names = &design.design.x_names;
+    let outcome = labels.outcomes[model.outcome].as_str();
     match &estimated.fit {
         Ok(fit) => {
             let stats = ModelStats {
@@ -516,8 +613,8 @@ fn append_model(
                 het_test_stat: fit.breusch_pagan.map(|b| b.statistic),
                 het_test_p_value: fit.breusch_pagan.map(|b| b.p_value),
                 within_r_squared: fit.within_r_squared,
-                absorbed: estimated.design.absorbed_columns(plan).join("; "),
-                weights: estimated.design.weights_label(plan).unwrap_or_default(),
+                absorbed: design.absorbed_columns(plan).join("; "),
+                weights: design.weights_label(plan).unwrap_or_default(),
                 dropped: fit
                     .dropped
                     .iter()
@@ -526,7 +623,14 @@ fn append_model(
                     .join("; "),
                 outcome,
             };
-            for (choice_index, choice) in plan.errors.iter().enumerate() {
+            table.begin_model(ModelRows {
+                model_id: &model.id,
+                choices,
+                stats,
+                status: "ok",
+                message: String::new(),
+            });
+            for (choice_index, label) in labels.errors.iter().enumerate() {
                 for coefficient in &fit.coefficients {
                     if only.is_some_and(|cols| !cols.contains(&coefficient.column)) {
                         continue;
@@ -541,43 +645,31 @@ fn append_model(
                         ci_high: Some(inference.ci_high),
                         df: Some(inference.df),
                     };
-                    table.push(
-                        &model.id,
-                        &choices,
-                        &choice.label(),
-                        &names[coefficient.column],
-                        values,
-                        &stats,
-                        "ok",
-                        "",
-                    );
+                    table.push(label, &names[coefficient.column], values);
                 }
             }
         }
         Err(error) => {
             let stats = ModelStats {
                 outcome,
-                absorbed: estimated.design.absorbed_columns(plan).join("; "),
-                weights: estimated.design.weights_label(plan).unwrap_or_default(),
+                absorbed: design.absorbed_columns(plan).join("; "),
+                weights: design.weights_label(plan).unwrap_or_default(),
                 ..ModelStats::default()
             };
-            let message = error.to_string();
+            table.begin_model(ModelRows {
+                model_id: &model.id,
+                choices,
+                stats,
+                status: "failed",
+                message: error.to_string(),
+            });
             let terms: Vec<&str> = match only {
                 Some(cols) => cols.iter().map(|&c| names[c].as_str()).collect(),
                 None => vec![""],
             };
-            for choice in &plan.errors {
+            for label in &labels.errors {
                 for term in &terms {
-                    table.push(
-                        &model.id,
-                        &choices,
-                        &choice.label(),
-                        term,
-                        TermValues::default(),
-                        &stats,
-                        "failed",
-                        &message,
-                    );
+                    table.push(label, term, TermValues::default());
                 }
             }
         }
