@@ -30,11 +30,14 @@ SCALES = {
     # rows of the wide table (4 seasons), models drawn, reference-loop subsets, growth sweeps
     "small": dict(wide_rows=100_000, wide_models=200, wide_subset=10, small_full=False, small_subset=300,
                   growth_rows=[10_000, 100_000, 1_000_000], growth_models=[100, 1_000, 3_000],
-                  growth_fixed_models=50, growth_fixed_rows=10_000),
+                  growth_fixed_models=50, growth_fixed_rows=10_000, growth_models_at_large_rows=[]),
     "full": dict(wide_rows=1_000_000, wide_models=10_000, wide_subset=8, small_full=True, small_subset=1_000,
                  growth_rows=[10_000, 100_000, 1_000_000, 10_000_000],
                  growth_models=[100, 1_000, 10_000, 100_000, 1_000_000],
-                 growth_fixed_models=200, growth_fixed_rows=10_000),
+                 growth_fixed_models=200, growth_fixed_rows=10_000,
+                 # At 10^6 rows a few hundred models stay on the row pass (a moment build costs
+                 # more than they do); these counts show the moment route taking over.
+                 growth_models_at_large_rows=[2_000, 10_000]),
 }
 SEASONS = 4
 
@@ -129,8 +132,18 @@ def scenario_small_models(args, scale, work):
     grid = small_models_grid("regions.csv", full)
     # The issue asks for the 2,000,000 models' results streamed to Parquet in chunks.
     extra = ["--chunk", "200000"] if full else []
-    return run_scenario(args, "small-models", grid, work, csv_reader=lambda: pd.read_csv(csv),
-                        subset=scale["small_subset"], extra=extra)
+    result = run_scenario(args, "small-models", grid, work, csv_reader=lambda: pd.read_csv(csv),
+                          subset=scale["small_subset"], extra=extra)
+    if full:
+        # The same run writing the results table as Parquet only (`--no-csv`): the issue's
+        # 2,000,000-model target is stated for results streamed to Parquet.
+        study = os.path.join(work, "small-models.toml")
+        out = os.path.join(work, "small-models-results-parquet-only")
+        r = run_specgrid(args.bin, study, out, 2, extra + ["--no-csv"])
+        result["specgrid_parquet_only"] = r
+        log(f"  specgrid 2 thread(s), --no-csv: {r['wall_s']:.2f} s wall, peak RSS {r['peak_rss_mib']:.0f} MiB, "
+            + " ".join(f"{k}={v:.2f}" for k, v in r["phases"].items()))
+    return result
 
 
 def run_scenario(args, name, grid, work, csv_reader, subset, extra=()):
@@ -153,7 +166,9 @@ def run_scenario(args, name, grid, work, csv_reader, subset, extra=()):
     result = {
         "models": len(models), "rows_used": max(n_obs.values()), "specgrid": runs, "loops": loops,
         "ratios": {k: v["scaled_total_s"] / best for k, v in loops.items()},
-        "thread_speedup": {p: safe_ratio(runs[1]["phases"][p], runs[2]["phases"][p]) for p in runs[1]["phases"]},
+        # Phases under 10 ms on both runs (e.g. no inference phase) have no meaningful ratio.
+        "thread_speedup": {p: safe_ratio(runs[1]["phases"][p], runs[2]["phases"][p]) for p in runs[1]["phases"]
+                           if max(runs[1]["phases"][p], runs[2]["phases"][p]) >= 0.01},
     }
     result["thread_speedup"]["wall"] = safe_ratio(runs[1]["wall_s"], runs[2]["wall_s"])
     return result
@@ -168,6 +183,7 @@ def scenario_growth(args, scale, work):
     table = []
     sweeps = [("rows", r, scale["growth_fixed_models"]) for r in scale["growth_rows"]]
     sweeps += [("models", scale["growth_fixed_rows"], m) for m in scale["growth_models"]]
+    sweeps += [("models", 1_000_000, m) for m in scale["growth_models_at_large_rows"]]
     for sweep, rows, models in sweeps:
         data = os.path.join(work, f"growth-{rows}.parquet")
         if not os.path.exists(data):
@@ -221,6 +237,16 @@ def summary(results, floor, scale_name):
         two = r["specgrid"][2]
         log(f"  {name}: {r['models']:,} models; specgrid {two['wall_s']:.2f} s on 2 threads "
             f"({r['specgrid'][1]['wall_s']:.2f} s on 1), peak RSS {two['peak_rss_mib']:.0f} MiB")
+        if scale_name == "full" and "rss_mib" in targets[name]:
+            t = targets[name]
+            log(f"    end to end {two['wall_s']:.1f} s (target under {t['wall']} s: "
+                f"{'met' if two['wall_s'] < t['wall'] else 'NOT met'}), peak RSS {two['peak_rss_mib']:.0f} MiB "
+                f"(target under {t['rss_mib']} MiB: {'met' if two['peak_rss_mib'] < t['rss_mib'] else 'NOT met'})")
+        if "specgrid_parquet_only" in r:
+            wall = r["specgrid_parquet_only"]["wall_s"]
+            verdict = "" if scale_name != "full" else (
+                "  target met" if wall <= targets[name]["wall"] else f"  target {targets[name]['wall']} s NOT met")
+            log(f"    results as Parquet only (--no-csv): {wall:.2f} s on 2 threads{verdict}")
         for kind, ratio in r["ratios"].items():
             target = targets[name].get(kind)
             verdict = "" if target is None or scale_name != "full" else (

@@ -66,6 +66,11 @@ pub enum Command {
         /// Print seconds spent per phase (plan, load, factor, fit, write, report) to stderr.
         #[arg(long)]
         timings: bool,
+        /// Write the results table only as models.parquet, without models.csv (for grids of
+        /// millions of models, whose CSV runs to gigabytes; `report` and `compare` read the
+        /// Parquet file).
+        #[arg(long)]
+        no_csv: bool,
     },
     /// Compare two results folders of the same study: models added and removed, sign flips,
     /// changes of significance, moved estimates, every aggregate; judge the `[verdict]`.

@@ -15,7 +15,7 @@ use crate::results::{write_csv, write_parquet, ResultsTable};
 
 /// Where one results table goes: a CSV file and, optionally, a Parquet file.
 pub struct ChunkWriter {
-    csv_path: PathBuf,
+    csv_path: Option<PathBuf>,
     parquet_path: Option<PathBuf>,
     streaming: bool,
     csv: Option<File>,
@@ -27,9 +27,13 @@ fn failed(path: &Path, e: impl std::fmt::Display) -> Failure {
 }
 
 impl ChunkWriter {
-    /// A writer for `csv_path` (and `parquet_path`); `streaming` false means exactly one chunk
-    /// will be written, with the one-shot writers.
-    pub fn new(csv_path: PathBuf, parquet_path: Option<PathBuf>, streaming: bool) -> ChunkWriter {
+    /// A writer for `csv_path` and `parquet_path` (either may be left out); `streaming` false
+    /// means exactly one chunk will be written, with the one-shot writers.
+    pub fn new(
+        csv_path: Option<PathBuf>,
+        parquet_path: Option<PathBuf>,
+        streaming: bool,
+    ) -> ChunkWriter {
         ChunkWriter {
             csv_path,
             parquet_path,
@@ -43,21 +47,25 @@ impl ChunkWriter {
     pub fn write(&mut self, table: &ResultsTable) -> Result<(), Failure> {
         let mut frame = table.to_frame()?;
         if !self.streaming {
-            write_csv(&mut frame, &self.csv_path)?;
+            if let Some(path) = &self.csv_path {
+                write_csv(&mut frame, path)?;
+            }
             if let Some(path) = &self.parquet_path {
                 write_parquet(&mut frame, path)?;
             }
             return Ok(());
         }
-        let first = self.csv.is_none();
-        if first {
-            self.csv = Some(File::create(&self.csv_path).map_err(|e| failed(&self.csv_path, e))?);
-        }
-        if let Some(file) = self.csv.as_mut() {
-            CsvWriter::new(file)
-                .include_header(first)
-                .finish(&mut frame)
-                .map_err(|e| failed(&self.csv_path, e))?;
+        if let Some(csv_path) = &self.csv_path {
+            let first = self.csv.is_none();
+            if first {
+                self.csv = Some(File::create(csv_path).map_err(|e| failed(csv_path, e))?);
+            }
+            if let Some(file) = self.csv.as_mut() {
+                CsvWriter::new(file)
+                    .include_header(first)
+                    .finish(&mut frame)
+                    .map_err(|e| failed(csv_path, e))?;
+            }
         }
         if let Some(path) = &self.parquet_path {
             if self.parquet.is_none() {

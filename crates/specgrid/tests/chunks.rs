@@ -5,7 +5,7 @@
 
 mod common;
 
-use common::{effects_study, read_parquet, repo_root, run_study, text};
+use common::{effects_study, floats, read_parquet, repo_root, run_study, strings, text};
 
 #[test]
 fn chunked_runs_write_the_same_results() {
@@ -72,5 +72,54 @@ fn same_table(a: &std::path::Path, b: &std::path::Path, what: &str) {
                 _ => assert_eq!(x, y, "{what} line {}", n + 1),
             }
         }
+    }
+}
+
+/// `run --no-csv` writes the results table as models.parquet only: no models.csv, the same
+/// Parquet rows as a run that writes both, and a folder that `report` re-renders to the same
+/// report files.
+#[test]
+fn parquet_only_runs_write_the_same_parquet_and_re_render() {
+    let work = tempfile::tempdir().unwrap();
+    let data = repo_root()
+        .join("tests/reference/statsmodels/effects/data.csv")
+        .canonicalize()
+        .unwrap();
+    let study = work.path().join("study.toml");
+    std::fs::write(&study, effects_study(&data, "semi-elasticity")).unwrap();
+    let both = work.path().join("both");
+    let o = run_study(&study, &both, &[]);
+    assert!(o.status.success(), "{}", text(&o));
+    for chunk in [None, Some("5")] {
+        let out = work.path().join(format!("parquet-only-{chunk:?}"));
+        let mut args = vec!["--no-csv"];
+        args.extend(chunk.iter().flat_map(|c| ["--chunk", c]));
+        let o = run_study(&study, &out, &args);
+        assert!(o.status.success(), "{}", text(&o));
+        assert!(
+            !out.join("models.csv").exists(),
+            "--no-csv wrote models.csv"
+        );
+        let (a, b) = (
+            read_parquet(&both.join("models.parquet")),
+            read_parquet(&out.join("models.parquet")),
+        );
+        assert_eq!(a.shape(), b.shape(), "models.parquet shape, {chunk:?}");
+        for name in ["model_id", "errors", "term"] {
+            assert_eq!(strings(&a, name), strings(&b, name), "{name}, {chunk:?}");
+        }
+        for name in ["estimate", "std_error", "p_value"] {
+            for (u, v) in floats(&a, name).iter().zip(floats(&b, name)) {
+                assert!(
+                    (u - v).abs() <= 1e-12 * u.abs().max(v.abs()),
+                    "{name}: {u} vs {v}"
+                );
+            }
+        }
+        let before = std::fs::read_to_string(out.join("summary.json")).unwrap();
+        let o = common::specgrid(&["report", out.to_str().unwrap()], work.path());
+        assert!(o.status.success(), "{}", text(&o));
+        let after = std::fs::read_to_string(out.join("summary.json")).unwrap();
+        assert_eq!(before, after, "re-rendered summary.json differs");
     }
 }

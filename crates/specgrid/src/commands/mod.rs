@@ -32,6 +32,7 @@ pub fn dispatch(command: Command) -> Result<(), Failure> {
             max_memory,
             chunk,
             timings,
+            no_csv,
         } => run::run(&run::RunOptions {
             study,
             out,
@@ -46,6 +47,7 @@ pub fn dispatch(command: Command) -> Result<(), Failure> {
             },
             chunk: chunk.map(|c| c as usize),
             timings,
+            no_csv,
         }),
         Command::Compare {
             old,

@@ -37,6 +37,8 @@ pub struct RunOptions {
     pub chunk: Option<usize>,
     /// Print seconds per phase to stderr at the end (see `crate::timings`).
     pub timings: bool,
+    /// Write the results table as models.parquet only.
+    pub no_csv: bool,
 }
 
 /// One model's outcome: where it was fitted and what came back.
@@ -330,13 +332,13 @@ fn estimate_and_write(
     let streaming = chunk < n;
     let dimension_names: Vec<String> = plan.dimensions.iter().map(|d| d.name.clone()).collect();
     let mut models_out = ChunkWriter::new(
-        staging.file("models.csv"),
+        (!options.no_csv).then(|| staging.file("models.csv")),
         Some(staging.file("models.parquet")),
         streaming,
     );
     let mut terms_out = options
         .all_terms
-        .then(|| ChunkWriter::new(staging.file("terms.csv"), None, streaming));
+        .then(|| ChunkWriter::new(Some(staging.file("terms.csv")), None, streaming));
     let progress = progress_bar(n as u64, options.quiet);
     let factors = assembly
         .designs
