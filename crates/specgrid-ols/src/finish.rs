@@ -11,7 +11,7 @@ use crate::api::{
 };
 use crate::model_core::{projected_sq_norm, CoreFit};
 use crate::plan::{CovGroups, Plan};
-use crate::student::{two_sided_p, TQuantiles};
+use crate::student::TQuantiles;
 
 /// Sums over rows of squared residuals for Koenker's Breusch–Pagan auxiliary regression.
 #[derive(Debug, Clone, Default)]
@@ -217,7 +217,7 @@ fn inference(cov: Covariance, estimate: f64, var: f64, df: f64, tq: &mut TQuanti
         std_error,
         t_stat,
         df,
-        p_value: two_sided_p(t_stat, df),
+        p_value: tq.p_value(t_stat, df),
         ci_low: estimate - q * std_error,
         ci_high: estimate + q * std_error,
     }

@@ -2,13 +2,17 @@
 
 use statrs::distribution::{ContinuousCDF, StudentsT};
 use statrs::function::beta::beta_reg;
+use statrs::function::gamma::ln_gamma;
 
-/// Caches t quantiles by degrees of freedom (a call sees only a few distinct values).
+/// Caches t quantiles, and the log-beta prefix of the p-value, by degrees of freedom (a call
+/// sees only a few distinct values).
 #[derive(Debug)]
 pub(crate) struct TQuantiles {
     /// Upper tail probability of the interval's upper end, (1 − level)/2.
     tail: f64,
     cache: Vec<(f64, f64)>,
+    /// (df, ln Γ(df/2 + 1/2) − ln Γ(df/2) − ln Γ(1/2)).
+    log_beta: Vec<(f64, f64)>,
 }
 
 impl TQuantiles {
@@ -17,7 +21,35 @@ impl TQuantiles {
         TQuantiles {
             tail: (1.0 - confidence_level) / 2.0,
             cache: Vec::new(),
+            log_beta: Vec::new(),
         }
+    }
+
+    /// [`two_sided_p`] with the incomplete beta function's log-gamma prefix computed once per
+    /// df: the same value bit for bit (tested against `statrs`), at about half the cost, which
+    /// matters when millions of models share a handful of df values.
+    pub fn p_value(&mut self, t: f64, df: f64) -> f64 {
+        if t.is_nan() || df.is_nan() || df <= 0.0 {
+            return f64::NAN;
+        }
+        if t.is_infinite() {
+            return 0.0;
+        }
+        let x = (df / (df + t * t)).clamp(0.0, 1.0);
+        // Where statrs takes its special branch (x at 0 or within 1e-15 of 1), ask statrs.
+        if x == 0.0 || x > 1.0 - 1e-12 {
+            return beta_reg(df / 2.0, 0.5, x);
+        }
+        let prefix = match self.log_beta.iter().find(|(d, _)| *d == df) {
+            Some(&(_, c)) => c,
+            None => {
+                let (a, b) = (df / 2.0, 0.5);
+                let c = ln_gamma(a + b) - ln_gamma(a) - ln_gamma(b);
+                self.log_beta.push((df, c));
+                c
+            }
+        };
+        incomplete_beta_with_prefix(df / 2.0, 0.5, x, prefix)
     }
 
     /// The upper (1 + level)/2 quantile of Student t with `df` degrees of freedom.
@@ -48,6 +80,68 @@ pub(crate) fn two_sided_p(t: f64, df: f64) -> f64 {
     beta_reg(df / 2.0, 0.5, x.clamp(0.0, 1.0))
 }
 
+/// The regularised incomplete beta function I_x(a, b) for 0 < x < 1, given the prefix
+/// ln Γ(a + b) − ln Γ(a) − ln Γ(b): the continued fraction of Numerical Recipes (3rd ed.,
+/// sec. 6.4, `betacf`, modified Lentz) exactly as `statrs::function::beta::checked_beta_reg`
+/// 0.19 evaluates it (MIT licence), operation for operation, so the result is the same double.
+/// Only the prefix is hoisted out: statrs recomputes three log-gammas on every call.
+fn incomplete_beta_with_prefix(a: f64, b: f64, x: f64, prefix: f64) -> f64 {
+    let bt = (prefix + a * x.ln() + b * (1.0 - x).ln()).exp();
+    let symm_transform = x >= (a + 1.0) / (a + b + 2.0);
+    let eps = 0.000_000_000_000_000_111_022_302_462_515_65; // statrs' F64_PREC
+    let fpmin = f64::MIN_POSITIVE / eps;
+    let (a, b, x) = if symm_transform {
+        (b, a, 1.0 - x)
+    } else {
+        (a, b, x)
+    };
+    let qab = a + b;
+    let qap = a + 1.0;
+    let qam = a - 1.0;
+    let mut c = 1.0;
+    let mut d = 1.0 - qab * x / qap;
+    if d.abs() < fpmin {
+        d = fpmin;
+    }
+    d = 1.0 / d;
+    let mut h = d;
+    for m in 1..141 {
+        let m = f64::from(m);
+        let m2 = m * 2.0;
+        let mut aa = m * (b - m) * x / ((qam + m2) * (a + m2));
+        d = 1.0 + aa * d;
+        if d.abs() < fpmin {
+            d = fpmin;
+        }
+        c = 1.0 + aa / c;
+        if c.abs() < fpmin {
+            c = fpmin;
+        }
+        d = 1.0 / d;
+        h = h * d * c;
+        aa = -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2));
+        d = 1.0 + aa * d;
+        if d.abs() < fpmin {
+            d = fpmin;
+        }
+        c = 1.0 + aa / c;
+        if c.abs() < fpmin {
+            c = fpmin;
+        }
+        d = 1.0 / d;
+        let del = d * c;
+        h *= del;
+        if (del - 1.0).abs() <= eps {
+            break;
+        }
+    }
+    if symm_transform {
+        1.0 - bt * h / a
+    } else {
+        bt * h / a
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -61,5 +155,27 @@ mod tests {
         assert!((q.quantile(1.0) - 12.706_204_7).abs() < 1e-5);
         assert!((two_sided_p(2.228_138_85, 10.0) - 0.05).abs() < 1e-8);
         assert!(two_sided_p(f64::NAN, 3.0).is_nan());
+    }
+
+    #[test]
+    fn cached_prefix_p_values_equal_statrs_bit_for_bit() {
+        // The reference is statrs' own incomplete beta (a general-purpose library from the
+        // registry): the hoisted prefix must not change a single bit.
+        let mut q = TQuantiles::new(0.95);
+        let dfs = [
+            1.0, 2.0, 3.0, 7.0, 29.0, 142.0, 143.0, 1_000.0, 99_960.0, 2.5,
+        ];
+        let ts = [
+            0.0, 1e-8, 0.01, 0.3, 1.0, 1.96, 2.5, 4.0, 8.0, 30.0, 1e3, 1e8, -2.0, -40.0,
+        ];
+        for &df in &dfs {
+            for &t in &ts {
+                let ours = q.p_value(t, df);
+                let reference = two_sided_p(t, df);
+                assert_eq!(ours.to_bits(), reference.to_bits(), "t = {t}, df = {df}");
+            }
+        }
+        assert!(q.p_value(f64::NAN, 3.0).is_nan());
+        assert_eq!(q.p_value(f64::INFINITY, 3.0), 0.0);
     }
 }

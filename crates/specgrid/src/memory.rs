@@ -13,9 +13,15 @@ const BYTES_PER_MODEL: u128 = 320;
 /// constants give 5.1 KiB, erring on the side of refusing.
 const BYTES_PER_ROW: u128 = 1000;
 const BYTES_PER_ROW_PER_DIMENSION: u128 = 40;
-/// Copies of the result rows alive at once: the builder, the polars frame, the report's rows
-/// and its input.
+/// Copies of the result rows alive at once: the builder, the polars frame and the writers'
+/// buffers, and the report's input.
 const ROW_COPIES: u128 = 4;
+/// Bytes the report keeps per model while a chunked run goes on (id, option indices, status,
+/// outcome label), plus this much per covariance choice (its effect). Calibrated on the
+/// 2,048,200-model pick grid with `--chunk 200000` (docs/performance.md): peak 3.5 GiB, which
+/// these constants reproduce with the plan's share and one chunk of rows.
+const BYTES_PER_REPORT_MODEL: u128 = 300;
+const BYTES_PER_REPORT_EFFECT: u128 = 100;
 
 /// The memory estimate of a run.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -29,8 +35,8 @@ pub struct Estimate {
 }
 
 /// Estimates the memory of a run's results from the counted grid; with `chunk` (models written
-/// at a time) only that many models' rows are held in full, plus each model's lead rows for
-/// the report.
+/// at a time) only that many models' rows are held in full, plus each model's entry for the
+/// report.
 pub fn estimate(study: &Study, count: &GridCount, chunk: Option<usize>) -> Estimate {
     let models = match study.grid.sample {
         Some(n) => count.after_exclusions.min(n as u128),
@@ -48,17 +54,22 @@ pub fn estimate(study: &Study, count: &GridCount, chunk: Option<usize>) -> Estim
         .saturating_mul(study.errors.len().max(1) as u128)
         .saturating_mul(tracked.max(1) as u128);
     let per_row = BYTES_PER_ROW + BYTES_PER_ROW_PER_DIMENSION * count.dimensions.len() as u128;
-    let held_rows = match chunk {
+    let (held_rows, report_bytes) = match chunk {
         Some(c) if (c as u128) < models => {
             let per_model = rows / models.max(1);
-            let lead = models.saturating_mul(study.errors.len().max(1) as u128);
-            (c as u128 * per_model).saturating_mul(ROW_COPIES) + lead.saturating_mul(2)
+            let per_entry = BYTES_PER_REPORT_MODEL
+                + BYTES_PER_REPORT_EFFECT * study.errors.len().max(1) as u128;
+            (
+                (c as u128 * per_model).saturating_mul(ROW_COPIES),
+                models.saturating_mul(per_entry),
+            )
         }
-        _ => rows.saturating_mul(ROW_COPIES),
+        _ => (rows.saturating_mul(ROW_COPIES), 0),
     };
     let bytes = models
         .saturating_mul(BYTES_PER_MODEL)
-        .saturating_add(held_rows.saturating_mul(per_row));
+        .saturating_add(held_rows.saturating_mul(per_row))
+        .saturating_add(report_bytes);
     Estimate {
         models,
         rows,
