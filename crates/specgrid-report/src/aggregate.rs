@@ -384,11 +384,7 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
                 }
                 return DecisionInfluence {
                     dimension: dim.name.clone(),
-                    variance_share: if total_ss > 0.0 {
-                        between / total_ss
-                    } else {
-                        0.0
-                    },
+                    variance_share: share_of(between, total_ss),
                     rank: 0,
                     per_candidate: true,
                     options: candidate_influence(input, d, &panel, &est),
@@ -440,11 +436,7 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
                 .collect();
             DecisionInfluence {
                 dimension: dim.name.clone(),
-                variance_share: if total_ss > 0.0 {
-                    between / total_ss
-                } else {
-                    0.0
-                },
+                variance_share: share_of(between, total_ss),
                 rank: 0,
                 per_candidate: false,
                 options,
@@ -466,6 +458,15 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
         ranked.push(out[i].clone());
     }
     ranked
+}
+
+/// Between-option over total sum of squares; 0 when the estimates do not vary.
+fn share_of(between: f64, total_ss: f64) -> f64 {
+    if total_ss > 0.0 {
+        between / total_ss
+    } else {
+        0.0
+    }
 }
 
 /// Per candidate term of a pick block: the models whose set contains it against those whose

@@ -198,7 +198,25 @@ impl ReportInput {
             models[i].effects[e] = Some(effect);
         }
         let effect_label = lead_term_label(lead_term.iter().map(String::as_str));
-        Ok(ReportInput {
+        Ok(ReportInput::from_entries(
+            header,
+            dimensions,
+            error_labels,
+            models,
+            effect_label,
+        ))
+    }
+
+    /// A coefficient-scale report input from model entries already made (by `run`, straight
+    /// from the fits; [`ReportInput::from_rows`] makes the same entries from `models.csv`).
+    pub fn from_entries(
+        header: ReportHeader,
+        dimensions: Vec<DimensionInfo>,
+        error_labels: Vec<String>,
+        models: Vec<ModelEntry>,
+        effect_label: String,
+    ) -> ReportInput {
+        ReportInput {
             title: header.title,
             scale: Scale::Coefficient,
             effect_label,
@@ -212,7 +230,7 @@ impl ReportInput {
             data_fingerprint: header.data_fingerprint,
             baseline_residuals: None,
             across_grid: None,
-        })
+        }
     }
 }
 

@@ -9,14 +9,7 @@ use common::{effects_study, floats, read_parquet, repo_root, run_study, strings,
 
 #[test]
 fn chunked_runs_write_the_same_results() {
-    let work = tempfile::tempdir().unwrap();
-    // The effects study: 12 models, three covariance choices, semi-elasticities.
-    let data = repo_root()
-        .join("tests/reference/statsmodels/effects/data.csv")
-        .canonicalize()
-        .unwrap();
-    let study = work.path().join("study.toml");
-    std::fs::write(&study, effects_study(&data, "semi-elasticity")).unwrap();
+    let (work, study) = effects_study_in_temp();
     let whole = work.path().join("whole");
     let o = run_study(&study, &whole, &["--all-terms"]);
     assert!(o.status.success(), "{}", text(&o));
@@ -52,6 +45,19 @@ fn chunked_runs_write_the_same_results() {
     assert_eq!(o.status.code(), Some(2), "{}", text(&o));
 }
 
+/// The effects study (12 models, three covariance choices, semi-elasticities) written into a
+/// new temporary folder, on the statsmodels effects reference data.
+fn effects_study_in_temp() -> (tempfile::TempDir, std::path::PathBuf) {
+    let work = tempfile::tempdir().unwrap();
+    let data = repo_root()
+        .join("tests/reference/statsmodels/effects/data.csv")
+        .canonicalize()
+        .unwrap();
+    let study = work.path().join("study.toml");
+    std::fs::write(&study, effects_study(&data, "semi-elasticity")).unwrap();
+    (work, study)
+}
+
 /// Two CSV files with the same cells: text equal, numbers equal to relative 1e-12.
 fn same_table(a: &std::path::Path, b: &std::path::Path, what: &str) {
     let (a, b) = (
@@ -80,13 +86,7 @@ fn same_table(a: &std::path::Path, b: &std::path::Path, what: &str) {
 /// report files.
 #[test]
 fn parquet_only_runs_write_the_same_parquet_and_re_render() {
-    let work = tempfile::tempdir().unwrap();
-    let data = repo_root()
-        .join("tests/reference/statsmodels/effects/data.csv")
-        .canonicalize()
-        .unwrap();
-    let study = work.path().join("study.toml");
-    std::fs::write(&study, effects_study(&data, "semi-elasticity")).unwrap();
+    let (work, study) = effects_study_in_temp();
     let both = work.path().join("both");
     let o = run_study(&study, &both, &[]);
     assert!(o.status.success(), "{}", text(&o));

@@ -128,21 +128,7 @@ pub fn render_models(
     dir: &Path,
 ) -> Result<String, Failure> {
     let (header, dimensions) = header_and_dimensions(record, study_text);
-    let input = ReportInput {
-        title: header.title,
-        scale: Scale::Coefficient,
-        effect_label,
-        dimensions,
-        error_labels,
-        significance_level: header.significance_level,
-        confidence_level: header.confidence_level,
-        baseline_model_id: header.baseline_model_id,
-        models,
-        study_text: header.study_text,
-        data_fingerprint: header.data_fingerprint,
-        baseline_residuals: None,
-        across_grid: None,
-    };
+    let input = ReportInput::from_entries(header, dimensions, error_labels, models, effect_label);
     let report = finish(record, input, extras)?;
     report
         .write_all(dir)
