@@ -57,7 +57,8 @@ pub fn render(report: &Report) -> String {
                 f.std_error,
                 half.map(|h| f.estimate - h),
                 half.map(|h| f.estimate + h),
-                f.p_value.or(se.map(|s| two_sided_p(f.estimate / s, f.df))),
+                f.p_value
+                    .or_else(|| se.map(|s| two_sided_p(f.estimate / s, f.df))),
                 Some(f.df),
                 f.proportional_change.map(|d| d.value),
                 f.proportional_change.and_then(|d| d.std_error),
