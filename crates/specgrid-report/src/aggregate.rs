@@ -365,7 +365,6 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
         .iter()
         .enumerate()
         .map(|(d, dim)| {
-            let mut between = 0.0;
             // Members of every option in one pass over the models.
             let mut by_option: Vec<Vec<usize>> = vec![Vec::new(); dim.options.len()];
             for (i, m) in input.models.iter().enumerate() {
@@ -373,15 +372,17 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
                     by_option[m.choices[d]].push(i);
                 }
             }
-            let panel = dim.panel();
-            if panel.per_candidate() {
-                // The variance share still compares the sets; the rows are per candidate.
-                for members in &by_option {
+            // Between-option sum of squares; for a pick block it still compares the sets,
+            // while the rows are per candidate.
+            let between: f64 = by_option
+                .iter()
+                .map(|members| {
                     let vals: Vec<f64> = members.iter().filter_map(|&i| est[i]).collect();
-                    if let Some(mu) = mean(&vals) {
-                        between += vals.len() as f64 * (mu - grand).powi(2);
-                    }
-                }
+                    mean(&vals).map_or(0.0, |mu| vals.len() as f64 * (mu - grand).powi(2))
+                })
+                .fold(0.0, |sum, part| sum + part);
+            let panel = dim.panel();
+            if panel.per_candidate {
                 return DecisionInfluence {
                     dimension: dim.name.clone(),
                     variance_share: share_of(between, total_ss),
@@ -397,9 +398,6 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
                 .map(|(o, name)| {
                     let members = std::mem::take(&mut by_option[o]);
                     let vals: Vec<f64> = members.iter().filter_map(|&i| est[i]).collect();
-                    if let Some(mu) = mean(&vals) {
-                        between += vals.len() as f64 * (mu - grand).powi(2);
-                    }
                     let mut shifts = Vec::new();
                     if o > 0 {
                         for &i in &members {
@@ -483,17 +481,20 @@ fn candidate_influence(
     let mut significant = vec![vec![0usize; input.error_labels.len()]; rows];
     let mut members = vec![0usize; rows];
     let (mut total_sum, mut total_n) = (0.0, 0usize);
+    let mut model_significant = vec![false; input.error_labels.len()];
     for (i, m) in input.models.iter().enumerate() {
         let Some(v) = est[i] else { continue };
         total_sum += v;
         total_n += 1;
+        // Judged once per model, then counted for each candidate in its set.
+        for (flag, f) in model_significant.iter_mut().zip(&m.effects) {
+            *flag = f.is_some_and(|f| significance(&f, input.significance_level) == Some(true));
+        }
         for row in panel.row_indices(m.choices[d]) {
             with[row].push(v);
             members[row] += 1;
-            for (e, f) in m.effects.iter().enumerate() {
-                if f.is_some_and(|f| significance(&f, input.significance_level) == Some(true)) {
-                    significant[row][e] += 1;
-                }
+            for (count, &flag) in significant[row].iter_mut().zip(&model_significant) {
+                *count += usize::from(flag);
             }
         }
     }

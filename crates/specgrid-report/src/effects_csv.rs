@@ -26,32 +26,35 @@ pub const EFFECTS_COLUMNS: [&str; 12] = [
 /// Renders `effects.csv` (models in input order, covariance choices in study order; failed
 /// models are left out, they are listed in models.csv).
 ///
-/// Written straight into one string, numbers formatted in place: at two million models a
-/// string per cell was tens of millions of allocations. Text fields are quoted as the `csv`
-/// crate quotes them (only when they hold a comma, a quote or a line break), and [`parse`]
-/// reads the file back with that crate.
+/// Fields go one by one to the `csv` writer (which quotes them), each number formatted into one
+/// reused buffer: at two million models a string per cell was tens of millions of allocations.
 pub fn render(report: &Report) -> String {
     let input = &report.input;
-    let mut out = String::with_capacity(64 + input.models.len() * input.error_labels.len() * 130);
-    out.push_str(&EFFECTS_COLUMNS.join(","));
-    out.push('\n');
-    let labels: Vec<String> = input
-        .error_labels
-        .iter()
-        .map(|l| csv_text(l).into_owned())
-        .collect();
+    let capacity = 64 + input.models.len() * input.error_labels.len() * 130;
+    let mut w = csv::WriterBuilder::new()
+        .terminator(csv::Terminator::Any(b'\n'))
+        .from_writer(Vec::with_capacity(capacity));
+    // Writing into memory cannot fail; a failure would only truncate the text.
+    let _ = write_rows(input, &mut w);
+    w.into_inner()
+        .ok()
+        .and_then(|b| String::from_utf8(b).ok())
+        .unwrap_or_default()
+}
+
+fn write_rows(input: &crate::ReportInput, w: &mut csv::Writer<Vec<u8>>) -> csv::Result<()> {
+    w.write_record(EFFECTS_COLUMNS)?;
+    let mut cell = String::new();
     for m in &input.models {
-        let id = csv_text(&m.model_id);
-        for (e, label) in labels.iter().enumerate() {
+        for (e, label) in input.error_labels.iter().enumerate() {
             let Some(f) = m.effects[e] else { continue };
             let se = f.std_error.filter(|s| s.is_finite() && *s > 0.0);
             let half = se.map(|s| {
                 let q = crate::stats::interval_multiplier(input.confidence_level, f.df);
                 q * s
             });
-            out.push_str(&id);
-            out.push(',');
-            out.push_str(label);
+            w.write_field(&m.model_id)?;
+            w.write_field(label)?;
             for value in [
                 Some(f.estimate),
                 f.std_error,
@@ -65,23 +68,14 @@ pub fn render(report: &Report) -> String {
                 f.turning_point.map(|d| d.value),
                 f.turning_point.and_then(|d| d.std_error),
             ] {
-                out.push(',');
-                push_cell(&mut out, value);
+                cell.clear();
+                push_cell(&mut cell, value);
+                w.write_field(&cell)?;
             }
-            out.push('\n');
+            w.write_record(None::<&[u8]>)?;
         }
     }
-    out
-}
-
-/// A text field as CSV: quoted, with quotes doubled, only when it holds a comma, a quote or a
-/// line break.
-fn csv_text(text: &str) -> std::borrow::Cow<'_, str> {
-    if text.contains([',', '"', '\n', '\r']) {
-        format!("\"{}\"", text.replace('"', "\"\"")).into()
-    } else {
-        text.into()
-    }
+    Ok(())
 }
 
 /// Shortest round-trip text of a finite number (exponent form for very small or very large

@@ -32,14 +32,17 @@ impl DimensionInfo {
     /// The rows the report shows for this decision: one per option, or for a pick block one
     /// per candidate term with each option's members.
     pub(crate) fn panel(&self) -> Panel<'_> {
-        let members = candidate_sets(self);
-        Panel {
-            labels: if members.is_some() {
-                &self.candidates
-            } else {
-                &self.options
+        match candidate_sets(self) {
+            Some(members) => Panel {
+                labels: &self.candidates,
+                members,
+                per_candidate: true,
             },
-            members,
+            None => Panel {
+                labels: &self.options,
+                members: (0..self.options.len() as u32).map(|o| vec![o]).collect(),
+                per_candidate: false,
+            },
         }
     }
 }
@@ -48,40 +51,17 @@ impl DimensionInfo {
 pub(crate) struct Panel<'a> {
     /// Row labels: the options, or the candidate terms of a pick block.
     pub labels: &'a [String],
-    /// For a pick block, the candidate rows of each option; `None` for an ordinary decision.
-    pub members: Option<Vec<Vec<u32>>>,
+    /// Per option, the rows a model taking it marks (indices into `labels`): the option's own
+    /// row, or a pick block's candidate terms in the set.
+    pub members: Vec<Vec<u32>>,
+    /// Whether rows are candidate terms (a pick block) rather than options.
+    pub per_candidate: bool,
 }
 
 impl Panel<'_> {
-    /// Whether rows are candidate terms (a pick block) rather than options.
-    pub fn per_candidate(&self) -> bool {
-        self.members.is_some()
-    }
-
     /// The rows a model taking `option` marks, as indices into `labels`.
-    pub fn row_indices(&self, option: usize) -> RowIndices<'_> {
-        match &self.members {
-            Some(sets) => RowIndices::Set(sets[option].iter()),
-            None => RowIndices::One(Some(option)),
-        }
-    }
-}
-
-/// Iterator over the rows one option marks.
-pub(crate) enum RowIndices<'a> {
-    /// An ordinary decision: the option's own row.
-    One(Option<usize>),
-    /// A pick block: the option's candidate terms.
-    Set(std::slice::Iter<'a, u32>),
-}
-
-impl Iterator for RowIndices<'_> {
-    type Item = usize;
-    fn next(&mut self) -> Option<usize> {
-        match self {
-            RowIndices::One(o) => o.take(),
-            RowIndices::Set(it) => it.next().map(|&r| r as usize),
-        }
+    pub fn row_indices(&self, option: usize) -> impl Iterator<Item = usize> + '_ {
+        self.members[option].iter().map(|&r| r as usize)
     }
 }
 

@@ -136,7 +136,7 @@ fn figure(report: &Report) -> String {
         f.push_str(&format!(
             "\\node[left,font=\\scriptsize\\bfseries] at (0,{row:.2}) {{{}{}}};\n",
             esc(&dim.name),
-            if panel.per_candidate() {
+            if panel.per_candidate {
                 " (candidate terms)"
             } else {
                 ""

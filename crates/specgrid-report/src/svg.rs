@@ -182,7 +182,7 @@ pub fn spec_curve(report: &Report) -> String {
             "<text class=\"dim-label\" x=\"4\" y=\"{:.1}\">{}{}</text>\n",
             row_y + row_h - 3.0,
             esc(&dim.name),
-            if panels[d].per_candidate() {
+            if panels[d].per_candidate {
                 " (rows: candidate terms)"
             } else {
                 ""

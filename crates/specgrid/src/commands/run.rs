@@ -427,9 +427,14 @@ fn estimate_and_write(
             if let Some(terms) = terms.as_mut() {
                 append_model(plan, &labels, *index, result, terms, None);
             }
-            if let Some(entry) =
-                report_entry(plan, *index, result, &tracked, &mut results.lead_terms)
-            {
+            if let Some(entry) = report_entry(
+                plan,
+                &labels,
+                *index,
+                result,
+                &tracked,
+                &mut results.lead_terms,
+            ) {
                 results.report_models.push(entry);
             }
         }
@@ -479,13 +484,14 @@ fn estimate_and_write(
 /// to `lead_terms` when it is a new one (at most two are kept).
 fn report_entry(
     plan: &Plan,
+    labels: &RowLabels,
     index: usize,
     estimated: &Estimated<'_>,
     tracked: &[usize],
     lead_terms: &mut Vec<String>,
 ) -> Option<ModelEntry> {
     let model = &plan.models[index];
-    let outcome_label = super::outcome_label(plan, model.outcome);
+    let outcome_label = labels.outcomes[model.outcome].clone();
     let names = &estimated.design.design.x_names;
     let (status, effects, lead_column, stats) = match &estimated.fit {
         Ok(fit) => {
