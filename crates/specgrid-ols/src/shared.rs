@@ -58,6 +58,8 @@ pub struct SharedFactor<'a> {
 #[derive(Debug, Default)]
 struct CoreWork {
     m: Vec<f64>,
+    /// Last possibly-nonzero row of each column of `m`.
+    last: Vec<usize>,
     kept: Vec<usize>,
     r: Vec<f64>,
     qty: Vec<f64>,
@@ -308,14 +310,26 @@ impl<'a> SharedFactor<'a> {
         let ycol = p + model.outcome;
         // R is upper triangular, so rows beyond the outcome's column are zero.
         let rows = self.r.nrows().min(ycol + 1);
+        // Column c of R is zero below row c: copy its top and remember where it ends, so the
+        // small QR skips the zeros.
         w.m.clear();
-        for &c in model.columns.iter().chain(std::iter::once(&ycol)) {
-            w.m.extend((0..rows).map(|i| self.r[(i, c)]));
+        w.m.resize(rows * (k + 1), 0.0);
+        w.last.clear();
+        for (j, &c) in model
+            .columns
+            .iter()
+            .chain(std::iter::once(&ycol))
+            .enumerate()
+        {
+            let top = (c + 1).min(rows);
+            w.m[j * rows..j * rows + top].copy_from_slice(&self.r.col_as_slice(c)[..top]);
+            w.last.push(top - 1);
         }
         let out = factor_in_order(
             &mut w.m,
             rows,
             k + 1,
+            &w.last,
             opts.collinearity_tolerance,
             &mut w.kept,
             &mut w.qr,

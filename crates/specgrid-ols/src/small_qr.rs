@@ -12,6 +12,8 @@ pub(crate) struct QrWork {
     vector: Vec<f64>,
     /// Original column norms.
     norms: Vec<f64>,
+    /// Last row of each column that may be nonzero (inclusive), updated as reflections mix rows.
+    ends: Vec<usize>,
 }
 
 /// Outcome of [`factor_in_order`].
@@ -29,54 +31,73 @@ pub(crate) struct OrderedQr {
 /// columns goes. Kept positions are appended to `kept`. On return, for kept column q (position
 /// `kept[q]` in `a`), rows `0..=q` of that column hold column q of the triangular factor, and
 /// rows `0..kept` of the last column hold Q'y.
+///
+/// `last_rows[c]` is the last row of column c that may be nonzero (rows below it must be exact
+/// zeros, as in columns taken from a triangular factor). Every loop stops there: a reflection
+/// built from rows `r..=e` only mixes those rows, so the skipped work was sums of exact zeros and
+/// the result is the same as the dense loop's. Columns taken from the union's triangular factor
+/// in union order make most of the work vanish (docs/performance.md, "Per-model factor").
 pub(crate) fn factor_in_order(
     a: &mut [f64],
     rows: usize,
     cols: usize,
+    last_rows: &[usize],
     tol: f64,
     kept: &mut Vec<usize>,
     work: &mut QrWork,
 ) -> OrderedQr {
-    debug_assert!(a.len() >= rows * cols && cols >= 1);
+    debug_assert!(a.len() >= rows * cols && cols >= 1 && last_rows.len() >= cols);
     kept.clear();
+    work.ends.clear();
+    work.ends.extend(
+        last_rows[..cols]
+            .iter()
+            .map(|&e| e.min(rows.saturating_sub(1))),
+    );
     work.norms.clear();
     work.norms
-        .extend((0..cols).map(|c| norm2(&a[c * rows..(c + 1) * rows])));
+        .extend((0..cols).map(|c| norm2(&a[c * rows..c * rows + (work.ends[c] + 1).min(rows)])));
     if work.vector.len() < rows {
         work.vector.resize(rows, 0.0);
     }
     let mut r = 0usize;
     for c in 0..cols - 1 {
-        let sub = norm2(&a[c * rows + r.min(rows)..(c + 1) * rows]);
+        if r >= rows {
+            break;
+        }
+        // Rows r..=end of this column are the only ones that can be nonzero.
+        let end = work.ends[c].max(r);
+        let sub = norm2(&a[c * rows + r..=c * rows + end]);
         let orig = work.norms[c];
-        if r >= rows || orig == 0.0 || sub <= tol * orig {
+        if orig == 0.0 || sub <= tol * orig {
             continue;
         }
-        // Reflector H = I - 2 v v'/(v'v) mapping x = a[r.., c] to alpha e1, alpha = -sign(x0)‖x‖
-        // (the sign choice avoids cancellation in v0).
+        // Reflector H = I - 2 v v'/(v'v) mapping x = a[r..=end, c] to alpha e1,
+        // alpha = -sign(x0)‖x‖ (the sign choice avoids cancellation in v0).
         let x0 = a[c * rows + r];
         let alpha = if x0 >= 0.0 { -sub } else { sub };
-        let v = &mut work.vector[..rows];
-        v[r..].copy_from_slice(&a[c * rows + r..(c + 1) * rows]);
-        v[r] -= alpha;
-        let vtv = dot(&v[r..], &v[r..]);
+        let v = &mut work.vector[r..=end];
+        v.copy_from_slice(&a[c * rows + r..=c * rows + end]);
+        v[0] -= alpha;
+        let vtv = dot(v, v);
         a[c * rows + r] = alpha;
-        a[c * rows + r + 1..(c + 1) * rows].fill(0.0);
+        a[c * rows + r + 1..=c * rows + end].fill(0.0);
         if vtv > 0.0 {
             for c2 in c + 1..cols {
-                let col = &mut a[c2 * rows + r..(c2 + 1) * rows];
-                let s = 2.0 * dot(&v[r..], col) / vtv;
-                for (ci, vi) in col.iter_mut().zip(&v[r..]) {
+                let col = &mut a[c2 * rows + r..=c2 * rows + end];
+                let s = 2.0 * dot(v, col) / vtv;
+                for (ci, vi) in col.iter_mut().zip(v.iter()) {
                     *ci -= s * vi;
                 }
+                work.ends[c2] = work.ends[c2].max(end);
             }
         }
         kept.push(c);
         r += 1;
     }
     let last = cols - 1;
-    let resid_norm = if r < rows {
-        norm2(&a[last * rows + r..(last + 1) * rows])
+    let resid_norm = if r < rows && r <= work.ends[last] {
+        norm2(&a[last * rows + r..=last * rows + work.ends[last]])
     } else {
         0.0
     };
@@ -115,8 +136,13 @@ pub(crate) fn condition_estimate(r: &[f64], rinv: &[f64], k: usize, tmp: &mut [f
 }
 
 /// Power iteration for the largest singular value of an upper-triangular k × k matrix.
+///
+/// The entries are bounded (unit-norm columns, or the inverse of such a factor under the
+/// condition limit), so plain sums of squares cannot overflow and no scaled norm is needed; the
+/// loops are written index by index because this runs twice per model (docs/performance.md).
 fn largest_singular(u: &[f64], k: usize, tmp: &mut [f64]) -> f64 {
     let (x, y) = tmp[..2 * k].split_at_mut(k);
+    let u = &u[..k * k];
     // A start vector with no special structure, so it is unlikely to be orthogonal to the top
     // singular vector.
     for (i, xi) in x.iter_mut().enumerate() {
@@ -124,19 +150,24 @@ fn largest_singular(u: &[f64], k: usize, tmp: &mut [f64]) -> f64 {
     }
     let mut sigma = 0.0;
     for _ in 0..40 {
-        let nx = norm2(x);
-        if nx == 0.0 {
-            return 0.0;
+        let nx = dot(x, x).sqrt();
+        if nx == 0.0 || !nx.is_finite() {
+            return if nx == 0.0 { 0.0 } else { f64::INFINITY };
         }
-        x.iter_mut().for_each(|v| *v /= nx);
-        // y = U x
-        for (i, yi) in y.iter_mut().enumerate() {
-            *yi = (i..k).map(|l| u[i + l * k] * x[l]).sum();
+        let inv = 1.0 / nx;
+        x.iter_mut().for_each(|v| *v *= inv);
+        // y = U x: row i of U is zero left of the diagonal.
+        y.fill(0.0);
+        for (l, &xl) in x.iter().enumerate() {
+            let col = &u[l * k..l * k + l + 1];
+            for (yi, &ui) in y[..=l].iter_mut().zip(col) {
+                *yi += ui * xl;
+            }
         }
-        let new_sigma = norm2(y);
-        // x = U' y
+        let new_sigma = dot(y, y).sqrt();
+        // x = U' y: column l of U has rows 0..=l.
         for (l, xl) in x.iter_mut().enumerate() {
-            *xl = (0..=l).map(|i| u[i + l * k] * y[i]).sum();
+            *xl = dot(&u[l * k..l * k + l + 1], &y[..=l]);
         }
         if (new_sigma - sigma).abs() <= 1e-6 * new_sigma {
             return new_sigma;
@@ -173,7 +204,7 @@ mod tests {
         let mut a = vec![1.0, 1.0, 0.0, 2.0, 2.0, 0.0, 0.0, 0.0, 1.0, 1.0, 2.0, 3.0];
         let mut kept = Vec::new();
         let mut w = QrWork::default();
-        let out = factor_in_order(&mut a, rows, 4, 1e-10, &mut kept, &mut w);
+        let out = factor_in_order(&mut a, rows, 4, &[2; 4], 1e-10, &mut kept, &mut w);
         assert_eq!(kept, vec![0, 2]);
         assert_eq!(out.kept, 2);
         assert!((a[0].abs() - 2f64.sqrt()).abs() < 1e-15);
@@ -190,5 +221,82 @@ mod tests {
         let mut tmp = [0.0; 4];
         let c = condition_estimate(&r, &inv, 2, &mut tmp);
         assert!((c - 4.0).abs() < 1e-9, "{c}");
+    }
+
+    /// Upper-triangular 9 × 9 with a fixed pattern of entries (no random source needed).
+    fn triangle(size: usize) -> Vec<f64> {
+        let mut r = vec![0.0; size * size];
+        for j in 0..size {
+            for i in 0..=j {
+                r[i + j * size] =
+                    ((i * 31 + j * 17) % 11) as f64 / 7.0 - 0.6 + if i == j { 2.0 } else { 0.0 };
+            }
+        }
+        r
+    }
+
+    #[test]
+    fn skipping_known_zeros_changes_nothing() {
+        // Columns of a triangular factor taken out of order (one a copy of an earlier one, so
+        // it must be dropped), outcome last. The loops that stop at each column's last nonzero
+        // row must give the dense loops' numbers bit for bit: the skipped terms are exact zeros.
+        let size = 9;
+        let r = triangle(size);
+        let picks = [0usize, 5, 2, 5, 7, 3, 8];
+        let rows = size;
+        let build = || -> Vec<f64> {
+            picks
+                .iter()
+                .flat_map(|&c| r[c * size..(c + 1) * size].to_vec())
+                .collect()
+        };
+        let sparse_last: Vec<usize> = picks.iter().map(|&c| c).collect();
+        let dense_last = vec![rows - 1; picks.len()];
+        let (mut a, mut b) = (build(), build());
+        let (mut ka, mut kb) = (Vec::new(), Vec::new());
+        let (mut wa, mut wb) = (QrWork::default(), QrWork::default());
+        let oa = factor_in_order(
+            &mut a,
+            rows,
+            picks.len(),
+            &sparse_last,
+            1e-10,
+            &mut ka,
+            &mut wa,
+        );
+        let ob = factor_in_order(
+            &mut b,
+            rows,
+            picks.len(),
+            &dense_last,
+            1e-10,
+            &mut kb,
+            &mut wb,
+        );
+        assert_eq!(ka, vec![0, 1, 2, 4, 5]);
+        assert_eq!(ka, kb);
+        assert_eq!(oa.kept, ob.kept);
+        assert_eq!(oa.resid_norm.to_bits(), ob.resid_norm.to_bits());
+        for (x, y) in a.iter().zip(&b) {
+            assert!(x == y, "{x} vs {y}");
+        }
+    }
+
+    #[test]
+    fn condition_estimate_matches_singular_values() {
+        // Reference: faer's SVD of the same triangle (a general-purpose library routine).
+        let size = 7;
+        let r = triangle(size);
+        let mut inv = vec![0.0; size * size];
+        upper_inverse(&r, size, &mut inv);
+        let mut tmp = vec![0.0; 2 * size];
+        let estimate = condition_estimate(&r, &inv, size, &mut tmp);
+        let m = faer::Mat::<f64>::from_fn(size, size, |i, j| r[i + j * size]);
+        let s = m.singular_values().expect("svd");
+        let exact = s[0] / s[size - 1];
+        assert!(
+            (estimate / exact - 1.0).abs() < 1e-5,
+            "{estimate} vs {exact}"
+        );
     }
 }

@@ -3,6 +3,8 @@
 
 use std::collections::HashMap;
 
+use rayon::prelude::*;
+
 use crate::effect::{Effect, Scale};
 use crate::input::{ModelEntry, ModelStatus, ReportInput};
 use crate::stats::{mean, median, quantile_sorted, standard_normal_cdf, two_sided_p};
@@ -73,9 +75,17 @@ pub fn summarize(input: &ReportInput) -> Result<Summary, ReportError> {
         .iter()
         .filter(|m| m.effects.iter().any(Option::is_some))
         .count();
-    let by_errors = (0..input.error_labels.len())
-        .map(|e| error_summary(input, e, baseline_index.map(|(i, _)| i)))
-        .collect();
+    // The aggregates read the same models independently; at millions of models each is a few
+    // seconds, so they run side by side on the rayon threads (the result does not depend on it).
+    let (by_errors, (decisions, diagnostics)) = rayon::join(
+        || {
+            (0..input.error_labels.len())
+                .into_par_iter()
+                .map(|e| error_summary(input, e, baseline_index.map(|(i, _)| i)))
+                .collect()
+        },
+        || rayon::join(|| decision_influence(input), || diagnostics(input)),
+    );
     Ok(Summary {
         format: SUMMARY_FORMAT,
         title: input.title.clone(),
@@ -94,8 +104,8 @@ pub fn summarize(input: &ReportInput) -> Result<Summary, ReportError> {
         },
         baseline: baseline_info(input, baseline_index),
         by_errors,
-        decisions: decision_influence(input),
-        diagnostics: diagnostics(input),
+        decisions,
+        diagnostics,
         cautions: cautions(input),
         across_grid: input.across_grid.clone(),
     })

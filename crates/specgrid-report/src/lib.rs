@@ -154,13 +154,19 @@ impl Report {
     /// and renamed into place only when every one is complete, so a failure never leaves a
     /// half-written file or a mix of old and new files from a failed write.
     pub fn write_all(&self, dir: &Path) -> Result<(), ReportError> {
-        let contents = [
-            self.summary_json(),
-            self.effects_csv(),
-            self.html(),
-            self.markdown(),
-            self.latex(),
+        // Rendered side by side: effects.csv splits itself over the threads, the others are
+        // one task each.
+        let renderers: [&(dyn Fn(&Report) -> String + Sync); 5] = [
+            &Report::summary_json,
+            &Report::effects_csv,
+            &Report::html,
+            &Report::markdown,
+            &Report::latex,
         ];
+        let contents: Vec<String> = {
+            use rayon::prelude::*;
+            renderers.par_iter().map(|render| render(self)).collect()
+        };
         let staged: Vec<(std::path::PathBuf, std::path::PathBuf)> = OUTPUT_FILES
             .iter()
             .map(|name| (dir.join(format!(".{name}.partial")), dir.join(name)))
