@@ -20,6 +20,13 @@ use std::process::ExitCode;
 
 use clap::Parser;
 
+/// A run of millions of small models allocates and frees tens of millions of small vectors,
+/// many of them on a thread other than the one that made them (fits are made on the rayon
+/// threads and written on the results writer's); mimalloc does both without the contention the
+/// system allocator showed (docs/performance.md, "Allocator").
+#[global_allocator]
+static ALLOCATOR: mimalloc::MiMalloc = mimalloc::MiMalloc;
+
 fn main() -> ExitCode {
     let cli = cli::Cli::parse();
     interrupt::install();

@@ -6,6 +6,7 @@ mod demo_data;
 mod plan;
 mod report;
 mod rerun;
+mod results_sink;
 mod run;
 
 use std::path::Path;

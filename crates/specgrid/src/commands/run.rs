@@ -4,19 +4,18 @@ use std::path::PathBuf;
 use std::time::Instant;
 
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
-use specgrid_data::{Assembly, LoadedData, SampleDesign};
-use specgrid_ols::{Covariance, FitOptions, ModelError, ModelFit};
-use specgrid_report::{Effect, ModelEntry, ModelStatus, Scale, StoredEffects};
+use specgrid_data::{Assembly, LoadedData};
+use specgrid_ols::{Covariance, FitOptions};
+use specgrid_report::Scale;
 
 use specgrid_study::Plan;
 
 use super::report::{self, RunRecord};
 use super::rerun::{self, Inputs, RerunOptions};
-use crate::effects::{self, EvaluationCache, Recipe};
+use super::results_sink::{self, Chunk, ChunkedResults, Estimated, SinkInputs};
+use crate::effects::{self, Recipe};
 use crate::exit::Failure;
 use crate::output::Staging;
-use crate::results::{ModelRows, ModelStats, ResultsTable, TermValues};
-use crate::results_stream::ChunkWriter;
 use crate::timings::{self, time};
 
 /// Everything `run` was asked to do.
@@ -39,13 +38,6 @@ pub struct RunOptions {
     pub timings: bool,
     /// Write the results table as models.parquet only.
     pub no_csv: bool,
-}
-
-/// One model's outcome: where it was fitted and what came back.
-struct Estimated<'a> {
-    design_index: usize,
-    design: &'a SampleDesign,
-    fit: Result<ModelFit, ModelError>,
 }
 
 /// Runs the whole study.
@@ -199,75 +191,6 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
     }
 }
 
-/// Every model's effect on the study's scale, keyed for the report; conversions undefined at
-/// the evaluation point are counted and shown as one warning.
-fn convert_effects(
-    plan: &Plan,
-    data: &LoadedData,
-    estimated: &[(usize, Estimated<'_>)],
-    recipes: &[Recipe],
-    scale: Scale,
-    cache: &mut EvaluationCache,
-    stored: &mut StoredEffects,
-) -> Result<Vec<String>, Failure> {
-    let labels: Vec<String> = plan.errors.iter().map(|e| e.label()).collect();
-    let mut problems = Vec::new();
-    for &(i, ref result) in estimated {
-        let Ok(fit) = &result.fit else { continue };
-        let model = &plan.models[i];
-        let point = cache.point(
-            plan,
-            data,
-            result.design_index,
-            result.design,
-            model,
-            &recipes[i],
-        )?;
-        let values =
-            effects::model_effects(&recipes[i], result.design, fit, point, scale, &mut problems);
-        let entry = stored.entry(model.id.clone()).or_default();
-        for (label, value) in labels.iter().zip(values) {
-            if let Some(v) = value {
-                entry.insert(label.clone(), v);
-            }
-        }
-    }
-    Ok(problems)
-}
-
-/// Most points kept for the baseline's residual plot (the plot draws at most this many).
-const RESIDUAL_POINTS: usize = 4000;
-
-/// (fitted, residual) of the baseline model over its rows, every k-th row so at most
-/// [`RESIDUAL_POINTS`] remain; `None` when there is no baseline or it failed.
-fn baseline_residuals(
-    plan: &Plan,
-    estimated: &[(usize, Estimated<'_>)],
-) -> Option<Vec<(f64, f64)>> {
-    let b = plan.baseline?;
-    let (_, result) = estimated.iter().find(|(i, _)| *i == b)?;
-    let fit = result.fit.as_ref().ok()?;
-    // With absorbed effects or weights the fit lives on the prepared design: within (and
-    // weighted) fitted values and residuals.
-    let design = result.design.fitted_design();
-    let outcome = result.design.outcome_columns[plan.models[b].outcome]?;
-    let n = design.x.nrows();
-    let step = n.div_ceil(RESIDUAL_POINTS).max(1);
-    Some(
-        (0..n)
-            .step_by(step)
-            .map(|i| {
-                let fitted: f64 = fit
-                    .all_estimates
-                    .iter()
-                    .map(|&(c, b)| design.x[(i, c)] * b)
-                    .sum();
-                (fitted, design.y[(i, outcome)] - fitted)
-            })
-            .collect(),
-    )
-}
-
 fn write_text(path: &std::path::Path, text: &str) -> Result<(), Failure> {
     std::fs::write(path, text).map_err(|e| Failure::Output(format!("{}: {e}", path.display())))
 }
@@ -293,29 +216,11 @@ fn fit_options(plan: &Plan, assembly: &Assembly) -> Result<FitOptions, Failure> 
     })
 }
 
-/// What the chunked estimation keeps for the report once every chunk is written.
-struct ChunkedResults {
-    /// Every model as the report sees it: the first tracked term under each covariance choice.
-    report_models: Vec<ModelEntry>,
-    /// The distinct first tracked terms (two at most are kept: the report only needs to know
-    /// whether every model's is the same).
-    lead_terms: Vec<String>,
-    /// Effects on the study's scale, when it is not `coefficient`.
-    effects: Option<StoredEffects>,
-    /// The baseline's (fitted, residual) pairs.
-    residuals: Option<Vec<(f64, f64)>>,
-    /// Models that failed.
-    failed: usize,
-    /// (model, coefficient, choice) triples the wild bootstrap could not serve.
-    wild_failures: usize,
-    /// Per design: models whose covariance sums came from the moments, and those sent back to
-    /// the row pass by their rounding bound (for manifest.json).
-    covariance_sums: Vec<specgrid_ols::MomentStats>,
-}
-
 /// Fits every model of the plan, one shared factorisation per design made once, in chunks of
-/// plan order (`--chunk`, default: the whole grid), writing each chunk's rows before the next
-/// is fitted. Rows stay in plan order whatever the chunk size.
+/// plan order (`--chunk`, default: the whole grid). Each fitted chunk goes to the results
+/// writer ([`results_sink::consume`]) on its own thread, which writes it while the next chunk is
+/// fitted; at most two chunks of fits are held (the channel has no buffer). Rows stay in plan
+/// order whatever the chunk size.
 #[allow(clippy::too_many_arguments)]
 fn estimate_and_write(
     plan: &Plan,
@@ -329,16 +234,6 @@ fn estimate_and_write(
 ) -> Result<ChunkedResults, Failure> {
     let n = plan.models.len();
     let chunk = options.chunk.unwrap_or(n).max(1);
-    let streaming = chunk < n;
-    let dimension_names: Vec<String> = plan.dimensions.iter().map(|d| d.name.clone()).collect();
-    let mut models_out = ChunkWriter::new(
-        (!options.no_csv).then(|| staging.file("models.csv")),
-        Some(staging.file("models.parquet")),
-        streaming,
-    );
-    let mut terms_out = options
-        .all_terms
-        .then(|| ChunkWriter::new(Some(staging.file("terms.csv")), None, streaming));
     let progress = progress_bar(n as u64, options.quiet);
     let factors = assembly
         .designs
@@ -353,197 +248,128 @@ fn estimate_and_write(
             Ok(factor)
         })
         .collect::<Result<Vec<_>, Failure>>()?;
-    let mut results = ChunkedResults {
-        report_models: Vec::with_capacity(n),
-        lead_terms: Vec::new(),
-        effects: recipes.map(|_| StoredEffects::new()),
-        residuals: None,
-        failed: 0,
-        wild_failures: 0,
-        covariance_sums: Vec::new(),
+    let sink = SinkInputs {
+        plan,
+        data,
+        recipes,
+        scale,
+        staging,
+        all_terms: options.all_terms,
+        no_csv: options.no_csv,
+        streaming: chunk < n,
     };
-    let mut cache = EvaluationCache::default();
-    let mut problems = Vec::new();
-    let labels = RowLabels::of(plan);
-    for start in (0..n).step_by(chunk) {
-        let end = (start + chunk).min(n);
-        let mut slots: Vec<Option<Estimated<'_>>> = (start..end).map(|_| None).collect();
-        for (design_index, (design, factor)) in assembly.designs.iter().zip(&factors).enumerate() {
-            // A design's models are in plan order, so the chunk's are one contiguous run.
-            let from = design.models.partition_point(|&m| m < start);
-            let to = design.models.partition_point(|&m| m < end);
-            let members = &design.models[from..to];
-            if members.is_empty() {
-                continue;
+    let (fitted, written) = std::thread::scope(|scope| {
+        let (send, receive) = std::sync::mpsc::sync_channel::<Chunk<'_>>(0);
+        let writer = scope.spawn(move || results_sink::consume(sink, receive));
+        let mut wild_failures = 0;
+        let fitted = (|| -> Result<usize, Failure> {
+            for start in (0..n).step_by(chunk) {
+                let end = (start + chunk).min(n);
+                let (estimated, wild) = fit_chunk(
+                    plan,
+                    assembly,
+                    &factors,
+                    fit_options,
+                    options.all_terms,
+                    start..end,
+                    &progress,
+                )?;
+                wild_failures += wild;
+                // A closed channel means the writer stopped on an error, which `join` returns.
+                if time("write", || send.send(estimated)).is_err() {
+                    break;
+                }
             }
-            progress.set_message(format!("sample `{}`", design.sample_name));
-            let specs = members
-                .iter()
-                .map(|&m| {
-                    let mut spec = design
-                        .model_spec(&plan.models[m])
-                        .map_err(|e| Failure::Data(e.to_string()))?;
-                    if options.all_terms {
-                        // Empty tracked = inference for every coefficient of the model.
-                        spec.tracked.clear();
-                    }
-                    Ok(spec)
-                })
-                .collect::<Result<Vec<_>, Failure>>()?;
-            let mut fits = time("fit", || {
-                factor.fit_many_with_progress(&specs, fit_options, &|k| progress.inc(k as u64))
-            });
-            results.wild_failures += time("inference", || {
-                crate::wild::apply(plan, fit_options, design, members, &specs, &mut fits)
-            });
-            for (&m, fit) in members.iter().zip(fits) {
-                slots[m - start] = Some(Estimated {
-                    design_index,
-                    design,
-                    fit,
-                });
-            }
-        }
-        let estimated = slots
-            .into_iter()
-            .enumerate()
-            .map(|(k, slot)| {
-                slot.map(|e| (start + k, e)).ok_or_else(|| {
-                    Failure::Estimation(format!(
-                        "model {} was not assigned to any design (internal error; please report it)",
-                        plan.models[start + k].id
-                    ))
-                })
-            })
-            .collect::<Result<Vec<_>, Failure>>()?;
-        let mut table = ResultsTable::new(&dimension_names)?;
-        let mut terms = options
-            .all_terms
-            .then(|| ResultsTable::new(&dimension_names))
-            .transpose()?;
-        for (index, result) in &estimated {
-            let tracked = tracked_columns(plan, result.design, *index)?;
-            append_model(plan, &labels, *index, result, &mut table, Some(&tracked));
-            if let Some(terms) = terms.as_mut() {
-                append_model(plan, &labels, *index, result, terms, None);
-            }
-            if let Some(entry) = report_entry(
-                plan,
-                &labels,
-                *index,
-                result,
-                &tracked,
-                &mut results.lead_terms,
-            ) {
-                results.report_models.push(entry);
-            }
-        }
-        time("write", || -> Result<(), Failure> {
-            models_out.write(&table)?;
-            if let (Some(out), Some(terms)) = (terms_out.as_mut(), terms.as_ref()) {
-                out.write(terms)?;
-            }
-            Ok(())
-        })?;
-        if let (Some(recipes), Some(stored)) = (recipes, results.effects.as_mut()) {
-            problems.extend(convert_effects(
-                plan, data, &estimated, recipes, scale, &mut cache, stored,
-            )?);
-        }
-        if results.residuals.is_none() {
-            results.residuals = baseline_residuals(plan, &estimated);
-        }
-        results.failed += estimated.iter().filter(|(_, e)| e.fit.is_err()).count();
-    }
+            Ok(wild_failures)
+        })();
+        drop(send);
+        let written = time("write", || writer.join()).unwrap_or_else(|_| {
+            Err(Failure::Output(
+                "the results writer stopped unexpectedly (internal error; please report it)".into(),
+            ))
+        });
+        (fitted, written)
+    });
     progress.finish_and_clear();
+    let wild_failures = fitted?;
+    let mut results = written?;
+    results.wild_failures = wild_failures;
     results.covariance_sums = factors.iter().map(|f| f.moment_stats()).collect();
-    if results.wild_failures > 0 {
+    if wild_failures > 0 {
         eprintln!(
-            "warning: the wild cluster bootstrap could not serve {} coefficient(s) (e.g. a coefficient collinear with the others on a sample's rows); those keep the cluster-robust p-value and interval",
-            results.wild_failures
-        );
-    }
-    models_out.finish()?;
-    if let Some(out) = terms_out {
-        out.finish()?;
-    }
-    if let Some(first) = problems.first() {
-        eprintln!(
-            "warning: {} effect(s) could not be put on the `{}` scale and are left empty, e.g.: {first}",
-            problems.len(),
-            scale.label()
+            "warning: the wild cluster bootstrap could not serve {wild_failures} coefficient(s) (e.g. a coefficient collinear with the others on a sample's rows); those keep the cluster-robust p-value and interval"
         );
     }
     Ok(results)
 }
 
-/// One model as the report sees it, made straight from its fit: the same entry
-/// `ReportInput::from_rows` builds from the model's rows in models.csv (its first tracked
-/// term under each covariance choice), without the rows' strings. `None` where the model has
-/// no row (a fit with no tracked coefficient), as there. Adds the model's first tracked term
-/// to `lead_terms` when it is a new one (at most two are kept).
-fn report_entry(
+/// Fits the plan models `range` on their designs' factors; returns them in plan order, and how
+/// many (model, coefficient, choice) triples the wild bootstrap could not serve.
+fn fit_chunk<'a>(
     plan: &Plan,
-    labels: &RowLabels,
-    index: usize,
-    estimated: &Estimated<'_>,
-    tracked: &[usize],
-    lead_terms: &mut Vec<String>,
-) -> Option<ModelEntry> {
-    let model = &plan.models[index];
-    let outcome_label = labels.outcomes[model.outcome].clone();
-    let names = &estimated.design.design.x_names;
-    let (status, effects, lead_column, stats) = match &estimated.fit {
-        Ok(fit) => {
-            let lead = fit
-                .coefficients
-                .iter()
-                .find(|c| tracked.contains(&c.column))?;
-            let effects = lead
-                .inference
-                .iter()
-                .map(|inf| {
-                    let mut e = Effect::coefficient(lead.estimate, Some(inf.std_error), inf.df);
-                    e.p_value = Some(inf.p_value);
-                    Some(e)
-                })
-                .collect();
-            let stats = (
-                Some(fit.n_obs as u64),
-                Some(fit.n_params as u64),
-                Some(fit.r_squared),
-                Some(fit.resid_sd),
-                fit.breusch_pagan.map(|b| b.p_value),
-            );
-            (ModelStatus::Ok, effects, lead.column, stats)
+    assembly: &'a Assembly,
+    factors: &[specgrid_ols::SharedFactor<'_>],
+    fit_options: &FitOptions,
+    all_terms: bool,
+    range: std::ops::Range<usize>,
+    progress: &ProgressBar,
+) -> Result<(Chunk<'a>, usize), Failure> {
+    let (start, end) = (range.start, range.end);
+    let mut wild_failures = 0;
+    let mut slots: Vec<Option<Estimated<'a>>> = (start..end).map(|_| None).collect();
+    for (design_index, (design, factor)) in assembly.designs.iter().zip(factors).enumerate() {
+        // A design's models are in plan order, so the chunk's are one contiguous run.
+        let from = design.models.partition_point(|&m| m < start);
+        let to = design.models.partition_point(|&m| m < end);
+        let members = &design.models[from..to];
+        if members.is_empty() {
+            continue;
         }
-        Err(error) => {
-            let lead = *tracked.first()?;
-            (
-                ModelStatus::Failed(error.to_string()),
-                vec![None; plan.errors.len()],
-                lead,
-                (None, None, None, None, None),
-            )
+        progress.set_message(format!("sample `{}`", design.sample_name));
+        let mut tracked = Vec::with_capacity(members.len());
+        let specs = members
+            .iter()
+            .map(|&m| {
+                let mut spec = design
+                    .model_spec(&plan.models[m])
+                    .map_err(|e| Failure::Data(e.to_string()))?;
+                if all_terms {
+                    // Empty tracked = inference for every coefficient of the model.
+                    tracked.push(std::mem::take(&mut spec.tracked));
+                } else {
+                    tracked.push(spec.tracked.clone());
+                }
+                Ok(spec)
+            })
+            .collect::<Result<Vec<_>, Failure>>()?;
+        let mut fits = time("fit", || {
+            factor.fit_many_with_progress(&specs, fit_options, &|k| progress.inc(k as u64))
+        });
+        wild_failures += time("inference", || {
+            crate::wild::apply(plan, fit_options, design, members, &specs, &mut fits)
+        });
+        for ((&m, fit), tracked) in members.iter().zip(fits).zip(tracked) {
+            slots[m - start] = Some(Estimated {
+                design_index,
+                design,
+                tracked,
+                fit,
+            });
         }
-    };
-    let term = &names[lead_column];
-    if lead_terms.len() < 2 && !lead_terms.contains(term) {
-        lead_terms.push(term.clone());
     }
-    let (n_obs, n_params, r_squared, resid_sd, het_p_value) = stats;
-    Some(ModelEntry {
-        model_id: model.id.clone(),
-        choices: model.choices.clone(),
-        status,
-        effects,
-        n_obs,
-        n_params,
-        r_squared,
-        resid_sd,
-        het_p_value,
-        outcome_label,
-    })
+    let estimated = slots
+        .into_iter()
+        .enumerate()
+        .map(|(k, slot)| {
+            slot.map(|e| (start + k, e)).ok_or_else(|| {
+                Failure::Estimation(format!(
+                    "model {} was not assigned to any design (internal error; please report it)",
+                    plan.models[start + k].id
+                ))
+            })
+        })
+        .collect::<Result<Vec<_>, Failure>>()?;
+    Ok((estimated, wild_failures))
 }
 
 fn progress_bar(total: u64, quiet: bool) -> ProgressBar {
@@ -557,129 +383,4 @@ fn progress_bar(total: u64, quiet: bool) -> ProgressBar {
         bar.set_style(style);
     }
     bar
-}
-
-/// The union columns of a model's tracked terms, in the design it was fitted on.
-fn tracked_columns(
-    plan: &Plan,
-    design: &SampleDesign,
-    model: usize,
-) -> Result<Vec<usize>, Failure> {
-    design
-        .model_spec(&plan.models[model])
-        .map(|spec| spec.tracked)
-        .map_err(|e| Failure::Data(e.to_string()))
-}
-
-/// Labels every row of a run repeats, made once so the results table can borrow them.
-struct RowLabels {
-    /// Per covariance choice, its results label.
-    errors: Vec<String>,
-    /// Per outcome form, its label.
-    outcomes: Vec<String>,
-}
-
-impl RowLabels {
-    fn of(plan: &Plan) -> RowLabels {
-        RowLabels {
-            errors: plan.errors.iter().map(|e| e.label()).collect(),
-            outcomes: (0..plan.outcomes.len())
-                .map(|o| super::outcome_label(plan, o))
-                .collect(),
-        }
-    }
-}
-
-/// Appends the rows of one model: one per covariance choice and reported term. `only` limits the
-/// terms to those union columns (the tracked ones); `None` writes every reported coefficient.
-fn append_model<'a>(
-    plan: &'a Plan,
-    labels: &'a RowLabels,
-    index: usize,
-    estimated: &Estimated<'a>,
-    table: &mut ResultsTable<'a>,
-    only: Option<&[usize]>,
-) {
-    let model = &plan.models[index];
-    let choices: Vec<&str> = plan
-        .choice_names(model)
-        .into_iter()
-        .map(|(_, option)| option)
-        .collect();
-    let design = estimated.design;
-    let names = &design.design.x_names;
-    let outcome = labels.outcomes[model.outcome].as_str();
-    match &estimated.fit {
-        Ok(fit) => {
-            let stats = ModelStats {
-                n_obs: Some(fit.n_obs as u64),
-                n_params: Some(fit.n_params as u64),
-                r_squared: Some(fit.r_squared),
-                adj_r_squared: Some(fit.adj_r_squared),
-                resid_sd: Some(fit.resid_sd),
-                condition_number: Some(fit.condition_number),
-                het_test_stat: fit.breusch_pagan.map(|b| b.statistic),
-                het_test_p_value: fit.breusch_pagan.map(|b| b.p_value),
-                within_r_squared: fit.within_r_squared,
-                absorbed: design.absorbed_columns(plan).join("; "),
-                weights: design.weights_label(plan).unwrap_or_default(),
-                dropped: fit
-                    .dropped
-                    .iter()
-                    .map(|&c| names[c].as_str())
-                    .collect::<Vec<_>>()
-                    .join("; "),
-                outcome,
-            };
-            table.begin_model(ModelRows {
-                model_id: &model.id,
-                choices,
-                stats,
-                status: "ok",
-                message: String::new(),
-            });
-            for (choice_index, label) in labels.errors.iter().enumerate() {
-                for coefficient in &fit.coefficients {
-                    if only.is_some_and(|cols| !cols.contains(&coefficient.column)) {
-                        continue;
-                    }
-                    let inference = &coefficient.inference[choice_index];
-                    let values = TermValues {
-                        estimate: Some(coefficient.estimate),
-                        std_error: Some(inference.std_error),
-                        t_stat: Some(inference.t_stat),
-                        p_value: Some(inference.p_value),
-                        ci_low: Some(inference.ci_low),
-                        ci_high: Some(inference.ci_high),
-                        df: Some(inference.df),
-                    };
-                    table.push(label, &names[coefficient.column], values);
-                }
-            }
-        }
-        Err(error) => {
-            let stats = ModelStats {
-                outcome,
-                absorbed: design.absorbed_columns(plan).join("; "),
-                weights: design.weights_label(plan).unwrap_or_default(),
-                ..ModelStats::default()
-            };
-            table.begin_model(ModelRows {
-                model_id: &model.id,
-                choices,
-                stats,
-                status: "failed",
-                message: error.to_string(),
-            });
-            let terms: Vec<&str> = match only {
-                Some(cols) => cols.iter().map(|&c| names[c].as_str()).collect(),
-                None => vec![""],
-            };
-            for label in &labels.errors {
-                for term in &terms {
-                    table.push(label, term, TermValues::default());
-                }
-            }
-        }
-    }
 }
