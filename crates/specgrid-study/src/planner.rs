@@ -2,7 +2,9 @@
 
 use std::cmp::Ordering;
 
-use crate::grid::{decode, full_size, Layout, SkipBox};
+use rayon::prelude::*;
+
+use crate::grid::{decode, full_size, Layout, ModelContent, SkipBox};
 use crate::ids::{canonical_text, id_bits, model_id, outcome_text, sample_text};
 use crate::kept::Kept;
 use crate::plan::{Dimension, OutcomeForm, Plan, PlannedModel, RowPolicy, Term, Transform};
@@ -143,11 +145,29 @@ fn build(
     let mut models = Vec::with_capacity(indices.len());
     // (id as a number, model position): sorted afterwards to find repeated ids.
     let mut id_order: Vec<(u64, usize)> = Vec::with_capacity(indices.len());
-    let mut text = String::new();
     let mut two_weights: Option<usize> = None;
-    for index in indices {
-        let choices = decode(index, &radices);
-        let content = layout.content(&choices);
+    // Decoding, content and id of each model are independent, so they run on the rayon
+    // threads (the id's SHA-256 was most of the planner's time at millions of models); term
+    // numbers are then assigned in plan order, as before.
+    let described: Vec<(Vec<usize>, ModelContent, String)> = indices
+        .par_iter()
+        .map_init(String::new, |text, &index| {
+            let choices = decode(index, &radices);
+            let content = layout.content(&choices);
+            canonical_text(
+                table,
+                &content,
+                &outcome_texts[content.outcome],
+                &sample_texts[content.sample],
+                study.intercept,
+                text,
+            );
+            let id = model_id(text);
+            (choices, content, id)
+        })
+        .collect();
+    drop(indices);
+    for (choices, content, id) in described {
         let mut number = |t: usize| -> usize {
             *plan_term[t].get_or_insert_with(|| {
                 terms.push(table.terms[t].clone());
@@ -161,15 +181,6 @@ fn build(
             outcomes.push(form.clone());
             outcomes.len() - 1
         });
-        canonical_text(
-            table,
-            &content,
-            &outcome_texts[content.outcome],
-            &sample_texts[content.sample],
-            study.intercept,
-            &mut text,
-        );
-        let id = model_id(&text);
         id_order.push((id_bits(&id), models.len()));
         let absorbs = model_terms
             .iter()
