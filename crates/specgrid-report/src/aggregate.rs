@@ -370,9 +370,11 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
         .filter_map(|(m, e)| e.map(|v| (m.choices.as_slice(), v)))
         .collect();
 
+    // Decisions, and the options within one, are independent: at millions of models the twin
+    // look-ups take seconds, so both run on the rayon threads (order is kept by `collect`).
     let mut out: Vec<DecisionInfluence> = input
         .dimensions
-        .iter()
+        .par_iter()
         .enumerate()
         .map(|(d, dim)| {
             // Members of every option in one pass over the models.
@@ -403,15 +405,17 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
             }
             let options = dim
                 .options
-                .iter()
+                .par_iter()
+                .zip(by_option)
                 .enumerate()
-                .map(|(o, name)| {
-                    let members = std::mem::take(&mut by_option[o]);
+                .map(|(o, (name, members))| {
                     let vals: Vec<f64> = members.iter().filter_map(|&i| est[i]).collect();
                     let mut shifts = Vec::new();
+                    let mut twin = Vec::new();
                     if o > 0 {
                         for &i in &members {
-                            let mut twin = input.models[i].choices.clone();
+                            twin.clear();
+                            twin.extend_from_slice(&input.models[i].choices);
                             twin[d] = 0;
                             if let (Some(v), Some(t)) = (est[i], by_choices.get(twin.as_slice())) {
                                 shifts.push(v - t);
