@@ -250,7 +250,7 @@ mod tests {
                 .flat_map(|&c| r[c * size..(c + 1) * size].to_vec())
                 .collect()
         };
-        let sparse_last: Vec<usize> = picks.iter().map(|&c| c).collect();
+        let sparse_last: Vec<usize> = picks.to_vec();
         let dense_last = vec![rows - 1; picks.len()];
         let (mut a, mut b) = (build(), build());
         let (mut ka, mut kb) = (Vec::new(), Vec::new());
