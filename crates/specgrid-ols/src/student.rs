@@ -109,26 +109,10 @@ fn incomplete_beta_with_prefix(a: f64, b: f64, x: f64, prefix: f64) -> f64 {
         let m = f64::from(m);
         let m2 = m * 2.0;
         let mut aa = m * (b - m) * x / ((qam + m2) * (a + m2));
-        d = 1.0 + aa * d;
-        if d.abs() < fpmin {
-            d = fpmin;
-        }
-        c = 1.0 + aa / c;
-        if c.abs() < fpmin {
-            c = fpmin;
-        }
-        d = 1.0 / d;
+        lentz_update(aa, fpmin, &mut c, &mut d);
         h = h * d * c;
         aa = -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2));
-        d = 1.0 + aa * d;
-        if d.abs() < fpmin {
-            d = fpmin;
-        }
-        c = 1.0 + aa / c;
-        if c.abs() < fpmin {
-            c = fpmin;
-        }
-        d = 1.0 / d;
+        lentz_update(aa, fpmin, &mut c, &mut d);
         let del = d * c;
         h *= del;
         if (del - 1.0).abs() <= eps {
@@ -140,6 +124,21 @@ fn incomplete_beta_with_prefix(a: f64, b: f64, x: f64, prefix: f64) -> f64 {
     } else {
         bt * h / a
     }
+}
+
+/// One modified-Lentz update of the continued fraction's C and D by the partial numerator
+/// `aa` (both kept away from zero by `fpmin`), in statrs' order of operations; the caller
+/// multiplies h by D·C in its own order, which the two half-steps of `betacf` differ in.
+fn lentz_update(aa: f64, fpmin: f64, c: &mut f64, d: &mut f64) {
+    *d = 1.0 + aa * *d;
+    if d.abs() < fpmin {
+        *d = fpmin;
+    }
+    *c = 1.0 + aa / *c;
+    if c.abs() < fpmin {
+        *c = fpmin;
+    }
+    *d = 1.0 / *d;
 }
 
 #[cfg(test)]
