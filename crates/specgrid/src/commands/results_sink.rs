@@ -68,8 +68,6 @@ pub(super) fn consume(
         effects: recipes.map(|_| StoredEffects::new()),
         residuals: None,
         failed: 0,
-        wild_failures: 0,
-        covariance_sums: Vec::new(),
     };
     let mut cache = EvaluationCache::default();
     let mut problems = Vec::new();
@@ -138,7 +136,7 @@ pub(super) struct Estimated<'a> {
     pub fit: Result<ModelFit, ModelError>,
 }
 
-/// What the chunked estimation keeps for the report once every chunk is written.
+/// What the results writer keeps for the report once every chunk is written.
 pub(super) struct ChunkedResults {
     /// Every model as the report sees it: the first tracked term under each covariance choice.
     pub report_models: Vec<ModelEntry>,
@@ -151,11 +149,6 @@ pub(super) struct ChunkedResults {
     pub residuals: Option<Vec<(f64, f64)>>,
     /// Models that failed.
     pub failed: usize,
-    /// (model, coefficient, choice) triples the wild bootstrap could not serve.
-    pub wild_failures: usize,
-    /// Per design: models whose covariance sums came from the moments, and those sent back to
-    /// the row pass by their rounding bound (for manifest.json).
-    pub covariance_sums: Vec<specgrid_ols::MomentStats>,
 }
 
 /// Every model's effect on the study's scale, keyed for the report; conversions undefined at

@@ -85,15 +85,16 @@ pub fn run(options: &RunOptions) -> Result<(), Failure> {
         scale,
         &staging,
     )?;
-    let ChunkedResults {
-        report_models,
-        lead_terms,
-        effects: converted,
-        residuals,
-        failed,
+    let (
+        ChunkedResults {
+            report_models,
+            lead_terms,
+            effects: converted,
+            residuals,
+            failed,
+        },
         covariance_sums,
-        ..
-    } = written_models;
+    ) = written_models;
     if let Some(pairs) = &residuals {
         report::write_residuals(&staging.file(report::RESIDUALS_FILE), pairs)?;
     }
@@ -220,7 +221,8 @@ fn fit_options(plan: &Plan, assembly: &Assembly) -> Result<FitOptions, Failure> 
 /// plan order (`--chunk`, default: the whole grid). Each fitted chunk goes to the results
 /// writer ([`results_sink::consume`]) on its own thread, which writes it while the next chunk is
 /// fitted; at most two chunks of fits are held (the channel has no buffer). Rows stay in plan
-/// order whatever the chunk size.
+/// order whatever the chunk size. Also returns, per design, how many models' covariance sums
+/// came from the moments and how many went back to the row pass (for manifest.json).
 #[allow(clippy::too_many_arguments)]
 fn estimate_and_write(
     plan: &Plan,
@@ -231,7 +233,7 @@ fn estimate_and_write(
     recipes: Option<&[Recipe]>,
     scale: Scale,
     staging: &Staging,
-) -> Result<ChunkedResults, Failure> {
+) -> Result<(ChunkedResults, Vec<specgrid_ols::MomentStats>), Failure> {
     let n = plan.models.len();
     let chunk = options.chunk.unwrap_or(n).max(1);
     let progress = progress_bar(n as u64, options.quiet);
@@ -292,15 +294,13 @@ fn estimate_and_write(
     });
     progress.finish_and_clear();
     let wild_failures = fitted?;
-    let mut results = written?;
-    results.wild_failures = wild_failures;
-    results.covariance_sums = factors.iter().map(|f| f.moment_stats()).collect();
+    let results = written?;
     if wild_failures > 0 {
         eprintln!(
             "warning: the wild cluster bootstrap could not serve {wild_failures} coefficient(s) (e.g. a coefficient collinear with the others on a sample's rows); those keep the cluster-robust p-value and interval"
         );
     }
-    Ok(results)
+    Ok((results, factors.iter().map(|f| f.moment_stats()).collect()))
 }
 
 /// Fits the plan models `range` on their designs' factors; returns them in plan order, and how
