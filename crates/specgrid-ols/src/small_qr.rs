@@ -141,6 +141,15 @@ pub(crate) fn condition_estimate(r: &[f64], rinv: &[f64], k: usize, tmp: &mut [f
 /// condition limit), so plain sums of squares cannot overflow and no scaled norm is needed; the
 /// loops are written index by index because this runs twice per model (docs/performance.md).
 fn largest_singular(u: &[f64], k: usize, tmp: &mut [f64]) -> f64 {
+    if k <= LANES {
+        largest_singular_padded(u, k)
+    } else {
+        largest_singular_general(u, k, tmp)
+    }
+}
+
+/// [`largest_singular`] for any k, on the triangles as they are.
+fn largest_singular_general(u: &[f64], k: usize, tmp: &mut [f64]) -> f64 {
     let (x, y) = tmp[..2 * k].split_at_mut(k);
     let u = &u[..k * k];
     // A start vector with no special structure, so it is unlikely to be orthogonal to the top
@@ -168,6 +177,62 @@ fn largest_singular(u: &[f64], k: usize, tmp: &mut [f64]) -> f64 {
         // x = U' y: column l of U has rows 0..=l.
         for (l, xl) in x.iter_mut().enumerate() {
             *xl = dot(&u[l * k..l * k + l + 1], &y[..=l]);
+        }
+        if (new_sigma - sigma).abs() <= 1e-6 * new_sigma {
+            return new_sigma;
+        }
+        sigma = new_sigma;
+    }
+    sigma
+}
+
+/// Width of the fixed-size path of [`largest_singular`]: most models have at most this many
+/// kept columns.
+const LANES: usize = 8;
+
+/// [`largest_singular`] for k ≤ [`LANES`], on zero-padded fixed-size copies of U and U' so that
+/// both products are unrolled, branch-free loops the compiler turns into vector code (the
+/// variable-length triangular loops cost about ten times as much per step at k = 7).
+///
+/// Same operations as the general loop in the same order: every padded term is an exact zero
+/// added to a sum, so the result is the same number (only the sign of a zero could differ).
+fn largest_singular_padded(u: &[f64], k: usize) -> f64 {
+    debug_assert!(k <= LANES);
+    // cols[l][i] = U[i, l] and rows[i][l] = U[i, l]; zero outside the k × k upper triangle.
+    let mut cols = [[0.0f64; LANES]; LANES];
+    let mut rows = [[0.0f64; LANES]; LANES];
+    for l in 0..k {
+        for i in 0..=l {
+            cols[l][i] = u[i + l * k];
+            rows[i][l] = u[i + l * k];
+        }
+    }
+    let mut x = [0.0f64; LANES];
+    for (i, xi) in x[..k].iter_mut().enumerate() {
+        *xi = 1.0 + 0.1 * ((i * 7919) % 13) as f64;
+    }
+    let mut sigma = 0.0;
+    for _ in 0..40 {
+        let nx = dot(&x[..k], &x[..k]).sqrt();
+        if nx == 0.0 || !nx.is_finite() {
+            return if nx == 0.0 { 0.0 } else { f64::INFINITY };
+        }
+        let inv = 1.0 / nx;
+        x.iter_mut().for_each(|v| *v *= inv);
+        // y = U x, column by column.
+        let mut y = [0.0f64; LANES];
+        for (col, &xl) in cols.iter().zip(&x) {
+            for (yi, &ui) in y.iter_mut().zip(col) {
+                *yi += ui * xl;
+            }
+        }
+        let new_sigma = dot(&y[..k], &y[..k]).sqrt();
+        // x = U' y, row by row of U.
+        x = [0.0f64; LANES];
+        for (row, &yi) in rows.iter().zip(&y) {
+            for (xl, &ui) in x.iter_mut().zip(row) {
+                *xl += ui * yi;
+            }
         }
         if (new_sigma - sigma).abs() <= 1e-6 * new_sigma {
             return new_sigma;
@@ -279,6 +344,23 @@ mod tests {
         assert_eq!(oa.resid_norm.to_bits(), ob.resid_norm.to_bits());
         for (x, y) in a.iter().zip(&b) {
             assert!(x == y, "{x} vs {y}");
+        }
+    }
+
+    #[test]
+    fn padded_power_iteration_is_the_general_loop() {
+        // The fixed-size path must give the general loop's number exactly, for every size it
+        // serves, on a triangle and on its inverse.
+        for size in 1..=LANES {
+            let r = triangle(size);
+            let mut inv = vec![0.0; size * size];
+            upper_inverse(&r, size, &mut inv);
+            for u in [&r, &inv] {
+                let mut tmp = vec![0.0; 2 * size];
+                let general = largest_singular_general(u, size, &mut tmp);
+                let padded = largest_singular_padded(u, size);
+                assert!(general == padded, "size {size}: {general} vs {padded}");
+            }
         }
     }
 

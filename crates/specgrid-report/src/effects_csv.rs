@@ -27,30 +27,42 @@ pub const EFFECTS_COLUMNS: [&str; 12] = [
 /// hand-off, small enough that two threads share a grid of a few thousand models.
 const BLOCK_MODELS: usize = 4096;
 
-/// Renders `effects.csv` (models in input order, covariance choices in study order; failed
+/// Blocks rendered side by side before they are written: enough to keep the threads busy, few
+/// enough that the file never sits in memory whole (about 35 MB at two error choices).
+const BLOCKS_PER_ROUND: usize = 32;
+
+/// Renders `effects.csv` into a string (see [`write`]).
+pub fn render(report: &Report) -> String {
+    let mut out = Vec::new();
+    // Writing into memory cannot fail.
+    let _ = write(report, &mut out);
+    // The csv writer only ever writes the UTF-8 it is given.
+    String::from_utf8(out).unwrap_or_else(|e| String::from_utf8_lossy(e.as_bytes()).into_owned())
+}
+
+/// Writes `effects.csv` (models in input order, covariance choices in study order; failed
 /// models are left out, they are listed in models.csv).
 ///
-/// Blocks of models are rendered on the rayon threads and joined in order, so the text does not
-/// depend on the thread count. Fields go one by one to the `csv` writer (which quotes them),
-/// each number formatted by `ryu` into a stack buffer: at two million models this file holds
-/// forty million numbers, and the standard formatter was most of the report's time
-/// (docs/performance.md).
-pub fn render(report: &Report) -> String {
+/// Rounds of blocks of models are rendered on the rayon threads and written in order, so the
+/// text does not depend on the thread count and a two-million-model file (half a gigabyte) is
+/// never held whole. Fields go one by one to the `csv` writer (which quotes them), each number
+/// formatted by `ryu` into a stack buffer: at two million models this file holds forty million
+/// numbers, and the standard formatter was most of the report's time (docs/performance.md).
+pub fn write(report: &Report, out: &mut impl std::io::Write) -> std::io::Result<()> {
     use rayon::prelude::*;
     let input = &report.input;
-    let blocks: Vec<Vec<u8>> = input
-        .models
-        .par_chunks(BLOCK_MODELS)
-        .map(|models| render_block(input, models))
-        .collect();
-    let mut out = String::with_capacity(128 + blocks.iter().map(Vec::len).sum::<usize>());
-    out.push_str(&EFFECTS_COLUMNS.join(","));
-    out.push('\n');
-    for block in blocks {
-        // The csv writer only ever writes the UTF-8 it is given.
-        out.push_str(&String::from_utf8_lossy(&block));
+    out.write_all(EFFECTS_COLUMNS.join(",").as_bytes())?;
+    out.write_all(b"\n")?;
+    for round in input.models.chunks(BLOCK_MODELS * BLOCKS_PER_ROUND) {
+        let blocks: Vec<Vec<u8>> = round
+            .par_chunks(BLOCK_MODELS)
+            .map(|models| render_block(input, models))
+            .collect();
+        for block in blocks {
+            out.write_all(&block)?;
+        }
     }
-    out
+    Ok(())
 }
 
 /// The rows of one block of models, without the header.

@@ -108,6 +108,9 @@ pub const OUTPUT_FILES: [&str; 5] = [
     "appendix.tex",
 ];
 
+/// Position of effects.csv in [`OUTPUT_FILES`] (streamed, not rendered to a string).
+const EFFECTS_FILE: usize = 1;
+
 impl Report {
     /// Checks the input and computes the aggregates.
     pub fn build(input: ReportInput) -> Result<Report, ReportError> {
@@ -154,29 +157,50 @@ impl Report {
     /// and renamed into place only when every one is complete, so a failure never leaves a
     /// half-written file or a mix of old and new files from a failed write.
     pub fn write_all(&self, dir: &Path) -> Result<(), ReportError> {
-        // Rendered side by side: effects.csv splits itself over the threads, the others are
-        // one task each.
-        let renderers: [&(dyn Fn(&Report) -> String + Sync); 5] = [
-            &Report::summary_json,
-            &Report::effects_csv,
-            &Report::html,
-            &Report::markdown,
-            &Report::latex,
-        ];
-        let contents: Vec<String> = {
-            use rayon::prelude::*;
-            renderers.par_iter().map(|render| render(self)).collect()
-        };
         let staged: Vec<(std::path::PathBuf, std::path::PathBuf)> = OUTPUT_FILES
             .iter()
             .map(|name| (dir.join(format!(".{name}.partial")), dir.join(name)))
             .collect();
+        // effects.csv (by far the largest) goes to its file round by round on the rayon
+        // threads while the other files are rendered beside it, one task each.
+        let renderers: [&(dyn Fn(&Report) -> String + Sync); 4] = [
+            &Report::summary_json,
+            &Report::html,
+            &Report::markdown,
+            &Report::latex,
+        ];
+        let effects_path = &staged[EFFECTS_FILE].0;
+        let (effects_written, contents) = rayon::join(
+            || {
+                let file = std::fs::File::create(effects_path)?;
+                let mut out = std::io::BufWriter::with_capacity(1 << 20, file);
+                effects_csv::write(self, &mut out)?;
+                std::io::Write::flush(&mut out)
+            },
+            || {
+                use rayon::prelude::*;
+                renderers
+                    .par_iter()
+                    .map(|render| render(self))
+                    .collect::<Vec<String>>()
+            },
+        );
         let fail = |path: &Path, source| ReportError::Write {
             path: path.display().to_string(),
             source,
         };
-        for ((partial, target), text) in staged.iter().zip(contents) {
-            if let Err(e) = std::fs::write(partial, text) {
+        // The other files, in OUTPUT_FILES order around effects.csv.
+        let others = staged
+            .iter()
+            .enumerate()
+            .filter(|(i, _)| *i != EFFECTS_FILE);
+        let mut written: Vec<std::io::Result<()>> = others
+            .zip(contents)
+            .map(|((_, (partial, _)), text)| std::fs::write(partial, text))
+            .collect();
+        written.insert(EFFECTS_FILE, effects_written);
+        for ((_, target), result) in staged.iter().zip(written) {
+            if let Err(e) = result {
                 for (p, _) in &staged {
                     let _ = std::fs::remove_file(p);
                 }
@@ -187,5 +211,15 @@ impl Report {
             std::fs::rename(partial, target).map_err(|e| fail(target, e))?;
         }
         Ok(())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn streamed_file_is_effects_csv() {
+        assert_eq!(OUTPUT_FILES[EFFECTS_FILE], "effects.csv");
     }
 }
