@@ -124,15 +124,74 @@ pub(crate) fn upper_inverse(r: &[f64], k: usize, out: &mut [f64]) {
     }
 }
 
-/// Estimated 2-norm condition number σ_max/σ_min of the upper-triangular `r` (k × k), from
-/// power iterations on R'R and on R⁻¹R⁻ᵀ (both explicit, so no solves). `tmp` needs 2k slots.
+/// Relative accuracy the condition number is certified to (see [`condition_estimate`]).
+pub(crate) const CONDITION_ACCURACY: f64 = 1e-5;
+
+/// The 2-norm condition number σ_max/σ_min of the upper-triangular `r` (k × k), to a certified
+/// relative accuracy of [`CONDITION_ACCURACY`]. `tmp` needs 2k + k² slots.
+///
+/// Power iteration on R'R and on R⁻¹R⁻ᵀ (both explicit, so no solves) gives each largest
+/// singular value from below: s ≤ σ. Its stopping rule (a relative change under 1e-6) cannot
+/// tell a slow climb from convergence, and from an unlucky start it settles near the second
+/// singular value (8% low on some models of a real grid). So each estimate is then certified:
+/// if (s(1 + δ))²·I − U'U has a Cholesky factor, every singular value of U is below s(1 + δ).
+/// Where a certificate fails, both values come from an SVD instead (faer), which is exact to
+/// rounding but costs several times as much; it serves about one model in a hundred.
+/// `tmp` needs max(2k, k²) slots.
 pub(crate) fn condition_estimate(r: &[f64], rinv: &[f64], k: usize, tmp: &mut [f64]) -> f64 {
     if k == 0 {
         return 1.0;
     }
     let smax = largest_singular(r, k, tmp);
     let inv_smin = largest_singular(rinv, k, tmp);
-    smax * inv_smin
+    let bound = 1.0 + CONDITION_ACCURACY;
+    let certified = |u: &[f64], s: f64, tmp: &mut [f64]| {
+        s.is_finite() && s > 0.0 && all_singular_below(u, k, s * bound, tmp)
+    };
+    if certified(r, smax, tmp) && certified(rinv, inv_smin, tmp) {
+        return smax * inv_smin;
+    }
+    exact_largest_singular(r, k) * exact_largest_singular(rinv, k)
+}
+
+/// Whether every singular value of the upper-triangular k × k `u` is below `bound`: whether
+/// bound²·I − U'U is positive definite, by a Cholesky factorisation of it in `tmp` (k² slots).
+/// A floating-point Cholesky that succeeds proves a matrix within a few rounding errors of the
+/// given one positive definite, so a pass certifies the bound up to about 1e-15 relative.
+fn all_singular_below(u: &[f64], k: usize, bound: f64, tmp: &mut [f64]) -> bool {
+    let a = &mut tmp[..k * k];
+    let mu = bound * bound;
+    // Lower triangle of μI − U'U (column-major): (U'U)[i, j] = Σ_{l ≤ min(i, j)} U[l, i]·U[l, j].
+    for j in 0..k {
+        for i in j..k {
+            let g: f64 = (0..=j).map(|l| u[l + i * k] * u[l + j * k]).sum();
+            a[i + j * k] = if i == j { mu - g } else { -g };
+        }
+    }
+    // Cholesky in place, lower triangle, column by column.
+    for j in 0..k {
+        let d = a[j + j * k] - (0..j).map(|l| a[j + l * k].powi(2)).sum::<f64>();
+        if d.is_nan() || d <= 0.0 {
+            return false;
+        }
+        let root = d.sqrt();
+        a[j + j * k] = root;
+        for i in j + 1..k {
+            let s: f64 = (0..j).map(|l| a[i + l * k] * a[j + l * k]).sum();
+            a[i + j * k] = (a[i + j * k] - s) / root;
+        }
+    }
+    true
+}
+
+/// Largest singular value of the upper-triangular k × k `u` by faer's SVD (the fallback of
+/// [`condition_estimate`]); infinite when the SVD fails (non-finite entries).
+fn exact_largest_singular(u: &[f64], k: usize) -> f64 {
+    let m = faer::Mat::<f64>::from_fn(k, k, |i, j| if i <= j { u[i + j * k] } else { 0.0 });
+    match m.singular_values() {
+        Ok(values) => values.first().copied().unwrap_or(0.0),
+        Err(_) => f64::INFINITY,
+    }
 }
 
 /// Power iteration for the largest singular value of an upper-triangular k × k matrix.
@@ -141,15 +200,6 @@ pub(crate) fn condition_estimate(r: &[f64], rinv: &[f64], k: usize, tmp: &mut [f
 /// condition limit), so plain sums of squares cannot overflow and no scaled norm is needed; the
 /// loops are written index by index because this runs twice per model (docs/performance.md).
 fn largest_singular(u: &[f64], k: usize, tmp: &mut [f64]) -> f64 {
-    if k <= LANES {
-        largest_singular_padded(u, k)
-    } else {
-        largest_singular_general(u, k, tmp)
-    }
-}
-
-/// [`largest_singular`] for any k, on the triangles as they are.
-fn largest_singular_general(u: &[f64], k: usize, tmp: &mut [f64]) -> f64 {
     let (x, y) = tmp[..2 * k].split_at_mut(k);
     let u = &u[..k * k];
     // A start vector with no special structure, so it is unlikely to be orthogonal to the top
@@ -177,62 +227,6 @@ fn largest_singular_general(u: &[f64], k: usize, tmp: &mut [f64]) -> f64 {
         // x = U' y: column l of U has rows 0..=l.
         for (l, xl) in x.iter_mut().enumerate() {
             *xl = dot(&u[l * k..l * k + l + 1], &y[..=l]);
-        }
-        if (new_sigma - sigma).abs() <= 1e-6 * new_sigma {
-            return new_sigma;
-        }
-        sigma = new_sigma;
-    }
-    sigma
-}
-
-/// Width of the fixed-size path of [`largest_singular`]: most models have at most this many
-/// kept columns.
-const LANES: usize = 8;
-
-/// [`largest_singular`] for k ≤ [`LANES`], on zero-padded fixed-size copies of U and U' so that
-/// both products are unrolled, branch-free loops the compiler turns into vector code (the
-/// variable-length triangular loops cost about ten times as much per step at k = 7).
-///
-/// Same operations as the general loop in the same order: every padded term is an exact zero
-/// added to a sum, so the result is the same number (only the sign of a zero could differ).
-fn largest_singular_padded(u: &[f64], k: usize) -> f64 {
-    debug_assert!(k <= LANES);
-    // cols[l][i] = U[i, l] and rows[i][l] = U[i, l]; zero outside the k × k upper triangle.
-    let mut cols = [[0.0f64; LANES]; LANES];
-    let mut rows = [[0.0f64; LANES]; LANES];
-    for l in 0..k {
-        for i in 0..=l {
-            cols[l][i] = u[i + l * k];
-            rows[i][l] = u[i + l * k];
-        }
-    }
-    let mut x = [0.0f64; LANES];
-    for (i, xi) in x[..k].iter_mut().enumerate() {
-        *xi = 1.0 + 0.1 * ((i * 7919) % 13) as f64;
-    }
-    let mut sigma = 0.0;
-    for _ in 0..40 {
-        let nx = dot(&x[..k], &x[..k]).sqrt();
-        if nx == 0.0 || !nx.is_finite() {
-            return if nx == 0.0 { 0.0 } else { f64::INFINITY };
-        }
-        let inv = 1.0 / nx;
-        x.iter_mut().for_each(|v| *v *= inv);
-        // y = U x, column by column.
-        let mut y = [0.0f64; LANES];
-        for (col, &xl) in cols.iter().zip(&x) {
-            for (yi, &ui) in y.iter_mut().zip(col) {
-                *yi += ui * xl;
-            }
-        }
-        let new_sigma = dot(&y[..k], &y[..k]).sqrt();
-        // x = U' y, row by row of U.
-        x = [0.0f64; LANES];
-        for (row, &yi) in rows.iter().zip(&y) {
-            for (xl, &ui) in x.iter_mut().zip(row) {
-                *xl += ui * yi;
-            }
         }
         if (new_sigma - sigma).abs() <= 1e-6 * new_sigma {
             return new_sigma;
@@ -348,30 +342,13 @@ mod tests {
     }
 
     #[test]
-    fn padded_power_iteration_is_the_general_loop() {
-        // The fixed-size path must give the general loop's number exactly, for every size it
-        // serves, on a triangle and on its inverse.
-        for size in 1..=LANES {
-            let r = triangle(size);
-            let mut inv = vec![0.0; size * size];
-            upper_inverse(&r, size, &mut inv);
-            for u in [&r, &inv] {
-                let mut tmp = vec![0.0; 2 * size];
-                let general = largest_singular_general(u, size, &mut tmp);
-                let padded = largest_singular_padded(u, size);
-                assert!(general == padded, "size {size}: {general} vs {padded}");
-            }
-        }
-    }
-
-    #[test]
     fn condition_estimate_matches_singular_values() {
         // Reference: faer's SVD of the same triangle (a general-purpose library routine).
         let size = 7;
         let r = triangle(size);
         let mut inv = vec![0.0; size * size];
         upper_inverse(&r, size, &mut inv);
-        let mut tmp = vec![0.0; 2 * size];
+        let mut tmp = vec![0.0; size * size];
         let estimate = condition_estimate(&r, &inv, size, &mut tmp);
         let m = faer::Mat::<f64>::from_fn(size, size, |i, j| r[i + j * size]);
         let s = m.singular_values().expect("svd");
@@ -380,5 +357,85 @@ mod tests {
             (estimate / exact - 1.0).abs() < 1e-5,
             "{estimate} vs {exact}"
         );
+    }
+
+    /// A triangle on which the plain power iteration settles near the second singular value
+    /// (random entries, found by searching a thousand such triangles).
+    const STALLING: [&[f64]; 7] = [
+        &[0.9636384782296343],
+        &[0.2230313552074652, 0.9543707473434209],
+        &[-0.3866771811094728, -0.0686876593683805, 0.7906836344268359],
+        &[
+            0.10834433064537896,
+            -0.18058732797289323,
+            0.3076114872902659,
+            1.2479745620830174,
+        ],
+        &[
+            -0.1849535605810696,
+            -0.054638234717009126,
+            -0.1600574342504989,
+            -0.35667560657626896,
+            0.7561378411990596,
+        ],
+        &[
+            -0.304444501219007,
+            0.13618791574563072,
+            0.14243166514886452,
+            0.02145087896690223,
+            0.3017839801729003,
+            1.0969084674528735,
+        ],
+        &[
+            0.2433430334163742,
+            0.456031259013689,
+            -0.23110185282150864,
+            -0.24570292449093512,
+            0.040987631375152156,
+            -0.07912181731393109,
+            0.5918538028405079,
+        ],
+    ];
+
+    #[test]
+    fn condition_is_certified_where_power_iteration_stalls() {
+        let k = STALLING.len();
+        let mut r = vec![0.0; k * k];
+        for (j, column) in STALLING.iter().enumerate() {
+            r[j * k..j * k + column.len()].copy_from_slice(column);
+        }
+        let mut inv = vec![0.0; k * k];
+        upper_inverse(&r, k, &mut inv);
+        let mut tmp = vec![0.0; k * k];
+        // Reference: numpy 2.4.6, s = numpy.linalg.svd(R, compute_uv=False); s[0] / s[-1].
+        let reference = 2.96722683707312;
+        let plain = largest_singular(&r, k, &mut tmp) * largest_singular(&inv, k, &mut tmp);
+        assert!(
+            (plain / reference - 1.0).abs() > 1e-2,
+            "the plain power iteration no longer stalls here ({plain}); pick another triangle"
+        );
+        assert!(!all_singular_below(
+            &r,
+            k,
+            largest_singular(&r, k, &mut tmp) * 1.00001,
+            &mut tmp
+        ));
+        let certified = condition_estimate(&r, &inv, k, &mut tmp);
+        assert!(
+            (certified / reference - 1.0).abs() < CONDITION_ACCURACY,
+            "{certified} vs {reference}"
+        );
+    }
+
+    #[test]
+    fn certificate_accepts_a_bound_just_above_and_refuses_one_just_below() {
+        // Reference: faer's SVD of the same triangle.
+        let size = 6;
+        let r = triangle(size);
+        let m = faer::Mat::<f64>::from_fn(size, size, |i, j| r[i + j * size]);
+        let top = m.singular_values().expect("svd")[0];
+        let mut tmp = vec![0.0; size * size];
+        assert!(all_singular_below(&r, size, top * (1.0 + 1e-9), &mut tmp));
+        assert!(!all_singular_below(&r, size, top * (1.0 - 1e-9), &mut tmp));
     }
 }

@@ -363,12 +363,17 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
     let all: Vec<f64> = est.iter().flatten().copied().collect();
     let grand = mean(&all).unwrap_or(0.0);
     let total_ss: f64 = all.iter().map(|v| (v - grand).powi(2)).sum();
-    let by_choices: HashMap<&[usize], f64> = input
-        .models
-        .iter()
-        .zip(&est)
-        .filter_map(|(m, e)| e.map(|v| (m.choices.as_slice(), v)))
-        .collect();
+    // The twins' look-up table: keys are a few small integers, so a fast non-cryptographic
+    // hash serves (SipHash and rehashing were most of this function at two million models).
+    let mut by_choices: HashMap<&[usize], f64, rustc_hash::FxBuildHasher> =
+        HashMap::with_capacity_and_hasher(input.models.len(), rustc_hash::FxBuildHasher);
+    by_choices.extend(
+        input
+            .models
+            .iter()
+            .zip(&est)
+            .filter_map(|(m, e)| e.map(|v| (m.choices.as_slice(), v))),
+    );
 
     // Decisions, and the options within one, are independent: at millions of models the twin
     // look-ups take seconds, so both run on the rayon threads (order is kept by `collect`).

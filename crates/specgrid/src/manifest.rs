@@ -156,7 +156,7 @@ impl Manifest {
         self.files
             .iter()
             .find(|(name, hash)| {
-                std::fs::read(dir.join(name.as_str())).map_or(true, |b| sha256_hex(&b) != **hash)
+                file_sha256_hex(&dir.join(name.as_str())).map_or(true, |h| h != **hash)
             })
             .map(|(name, _)| name.clone())
     }
@@ -177,6 +177,18 @@ pub fn sha256_hex(bytes: &[u8]) -> String {
         .collect()
 }
 
+/// SHA-256 of a file's bytes as 64 lowercase hex digits, read through a fixed buffer (result
+/// files reach hundreds of megabytes).
+pub fn file_sha256_hex(path: &Path) -> std::io::Result<String> {
+    let mut hasher = Sha256::new();
+    std::io::copy(&mut std::fs::File::open(path)?, &mut hasher)?;
+    Ok(hasher
+        .finalize()
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect())
+}
+
 /// The current time, UTC, RFC 3339 with seconds.
 pub fn now_text() -> String {
     humantime::format_rfc3339_seconds(std::time::SystemTime::now()).to_string()
@@ -188,8 +200,9 @@ const WRITTEN_BY_COMPARE: [&str; 3] = ["comparison.json", "comparison.html", "ve
 /// SHA-256 of every file directly in `dir` except the manifest and the files `compare` may
 /// rewrite, by name.
 pub fn hash_files(dir: &Path) -> Result<std::collections::BTreeMap<String, String>, Failure> {
+    use rayon::prelude::*;
     let fail = |e: std::io::Error| Failure::Output(format!("{}: {e}", dir.display()));
-    let mut files = std::collections::BTreeMap::new();
+    let mut names = Vec::new();
     for entry in std::fs::read_dir(dir).map_err(fail)? {
         let entry = entry.map_err(fail)?;
         let name = entry.file_name().to_string_lossy().into_owned();
@@ -199,8 +212,14 @@ pub fn hash_files(dir: &Path) -> Result<std::collections::BTreeMap<String, Strin
         {
             continue;
         }
-        let bytes = std::fs::read(entry.path()).map_err(fail)?;
-        files.insert(name, sha256_hex(&bytes));
+        names.push(name);
     }
-    Ok(files)
+    // The two large tables hash side by side.
+    names
+        .into_par_iter()
+        .map(|name| {
+            let hash = file_sha256_hex(&dir.join(&name)).map_err(fail)?;
+            Ok((name, hash))
+        })
+        .collect()
 }
