@@ -4,13 +4,14 @@
 use crate::aggregate::significance;
 use crate::Report;
 
-/// One model as drawn: estimate, band, significance, choices.
+/// One model as drawn: estimate, band, significance, and its position in the input (for its
+/// choices).
+#[derive(Debug, Clone)]
 pub(crate) struct Point {
     pub(crate) estimate: f64,
     pub(crate) low: Option<f64>,
     pub(crate) high: Option<f64>,
     pub(crate) significant: Option<bool>,
-    pub(crate) choices: Vec<usize>,
     pub(crate) model: usize,
 }
 
@@ -50,7 +51,13 @@ pub(crate) fn nice_ticks(lo: f64, hi: f64, n: usize) -> Vec<f64> {
 }
 
 /// Every estimated model under the first covariance choice, sorted by effect (ties by id).
-pub(crate) fn points(report: &Report) -> Vec<Point> {
+/// Computed once per report and shared by the SVG and TikZ figures (at millions of models the
+/// sort is a second or two).
+pub(crate) fn points(report: &Report) -> &[Point] {
+    report.curve.get_or_init(|| sorted_points(report))
+}
+
+fn sorted_points(report: &Report) -> Vec<Point> {
     let input = &report.input;
     let level = input.confidence_level;
     let mut pts: Vec<Point> = input
@@ -71,7 +78,6 @@ pub(crate) fn points(report: &Report) -> Vec<Point> {
                 low: half.map(|h| f.estimate - h),
                 high: half.map(|h| f.estimate + h),
                 significant: significance(&f, input.significance_level),
-                choices: m.choices.clone(),
                 model: i,
             })
         })
@@ -106,7 +112,7 @@ pub(crate) fn group(
             let mut option_shares: Vec<Vec<f64>> =
                 panels.iter().map(|p| vec![0.0; p.labels.len()]).collect();
             for p in members {
-                for (d, &c) in p.choices.iter().enumerate() {
+                for (d, &c) in report.input.models[p.model].choices.iter().enumerate() {
                     for row in panels[d].row_indices(c) {
                         option_shares[d][row] += 1.0 / members.len() as f64;
                     }

@@ -97,6 +97,8 @@ pub struct Report {
     pub input: ReportInput,
     /// The aggregates.
     pub summary: Summary,
+    /// The specification curve's sorted points, made by the first figure that needs them.
+    curve: std::sync::OnceLock<Vec<curve::Point>>,
 }
 
 /// File names [`Report::write_all`] writes, in order.
@@ -115,7 +117,11 @@ impl Report {
     /// Checks the input and computes the aggregates.
     pub fn build(input: ReportInput) -> Result<Report, ReportError> {
         let summary = summarize(&input)?;
-        Ok(Report { input, summary })
+        Ok(Report {
+            input,
+            summary,
+            curve: std::sync::OnceLock::new(),
+        })
     }
 
     /// `summary.json`: pretty-printed, keys in a fixed order, numbers in shortest round-trip

@@ -168,14 +168,17 @@ fn build(
         .collect();
     drop(indices);
     for (choices, content, id) in described {
-        let mut number = |t: usize| -> usize {
-            *plan_term[t].get_or_insert_with(|| {
-                terms.push(table.terms[t].clone());
+        let mut number = |t: &mut usize| {
+            *t = *plan_term[*t].get_or_insert_with(|| {
+                terms.push(table.terms[*t].clone());
                 terms.len() - 1
             })
         };
-        let model_terms: Vec<usize> = content.terms.iter().map(|&t| number(t)).collect();
-        let tracked: Vec<usize> = content.tracked.iter().map(|&t| number(t)).collect();
+        // Renumbered in place: at millions of models a second copy of every term list was a
+        // few hundred megabytes of fresh memory.
+        let (mut model_terms, mut tracked) = (content.terms, content.tracked);
+        model_terms.iter_mut().for_each(&mut number);
+        tracked.iter_mut().for_each(&mut number);
         let form = &study.outcome.forms[content.outcome].1;
         let outcome = *plan_outcome[content.outcome].get_or_insert_with(|| {
             outcomes.push(form.clone());

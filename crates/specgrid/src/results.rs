@@ -136,6 +136,16 @@ impl<'a> ResultsTable<'a> {
         })
     }
 
+    /// Makes room for `models` more models and `rows` more rows, so that a chunk's columns are
+    /// allocated once rather than grown by doubling (each doubling copies into fresh memory).
+    pub fn reserve(&mut self, models: usize, rows: usize) {
+        self.models.reserve(models);
+        self.model.reserve(rows);
+        self.errors.reserve(rows);
+        self.term.reserve(rows);
+        self.values.reserve(rows);
+    }
+
     /// Number of rows so far.
     #[allow(clippy::len_without_is_empty)]
     pub fn len(&self) -> usize {

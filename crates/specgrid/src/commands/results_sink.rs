@@ -74,6 +74,12 @@ pub(super) fn consume(
     let labels = RowLabels::of(plan);
     for estimated in chunks {
         let mut table = ResultsTable::new(&dimension_names)?;
+        // One row per covariance choice and tracked term of each model.
+        let rows: usize = estimated
+            .iter()
+            .map(|(_, e)| e.tracked.len().max(1) * plan.errors.len())
+            .sum();
+        table.reserve(estimated.len(), rows);
         let mut terms = all_terms
             .then(|| ResultsTable::new(&dimension_names))
             .transpose()?;

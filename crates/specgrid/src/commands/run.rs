@@ -327,21 +327,19 @@ fn fit_chunk<'a>(
         }
         progress.set_message(format!("sample `{}`", design.sample_name));
         let mut tracked = Vec::with_capacity(members.len());
-        let specs = members
-            .iter()
-            .map(|&m| {
-                let mut spec = design
-                    .model_spec(&plan.models[m])
-                    .map_err(|e| Failure::Data(e.to_string()))?;
-                if all_terms {
-                    // Empty tracked = inference for every coefficient of the model.
-                    tracked.push(std::mem::take(&mut spec.tracked));
-                } else {
-                    tracked.push(spec.tracked.clone());
-                }
-                Ok(spec)
-            })
-            .collect::<Result<Vec<_>, Failure>>()?;
+        let mut specs = Vec::with_capacity(members.len());
+        for &m in members {
+            let mut spec = design
+                .model_spec(&plan.models[m])
+                .map_err(|e| Failure::Data(e.to_string()))?;
+            if all_terms {
+                // Empty tracked = inference for every coefficient of the model.
+                tracked.push(std::mem::take(&mut spec.tracked));
+            } else {
+                tracked.push(spec.tracked.clone());
+            }
+            specs.push(spec);
+        }
         let mut fits = time("fit", || {
             factor.fit_many_with_progress(&specs, fit_options, &|k| progress.inc(k as u64))
         });
