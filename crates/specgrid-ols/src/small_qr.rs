@@ -128,44 +128,94 @@ pub(crate) fn upper_inverse(r: &[f64], k: usize, out: &mut [f64]) {
 pub(crate) const CONDITION_ACCURACY: f64 = 1e-5;
 
 /// The 2-norm condition number σ_max/σ_min of the upper-triangular `r` (k × k), to a certified
-/// relative accuracy of [`CONDITION_ACCURACY`]. `tmp` needs 2k + k² slots.
-///
-/// Power iteration on R'R and on R⁻¹R⁻ᵀ (both explicit, so no solves) gives each largest
-/// singular value from below: s ≤ σ. Its stopping rule (a relative change under 1e-6) cannot
-/// tell a slow climb from convergence, and from an unlucky start it settles near the second
-/// singular value (8% low on some models of a real grid). So each estimate is then certified:
-/// if (s(1 + δ))²·I − U'U has a Cholesky factor, every singular value of U is below s(1 + δ).
-/// Where a certificate fails, both values come from an SVD instead (faer), which is exact to
-/// rounding but costs several times as much; it serves about one model in a hundred.
-/// `tmp` needs max(2k, k²) slots.
+/// relative accuracy of [`CONDITION_ACCURACY`]: σ_max(R)·σ_max(R⁻¹), each by
+/// [`certified_largest_singular`]. Where a certificate fails, both values come from an SVD
+/// instead (faer), exact to rounding but several times as costly; it served 0.4% of the models
+/// of a real grid. `tmp` needs 2k(k + 1) slots.
 pub(crate) fn condition_estimate(r: &[f64], rinv: &[f64], k: usize, tmp: &mut [f64]) -> f64 {
     if k == 0 {
         return 1.0;
     }
-    let smax = largest_singular(r, k, tmp);
-    let inv_smin = largest_singular(rinv, k, tmp);
-    let bound = 1.0 + CONDITION_ACCURACY;
-    let certified = |u: &[f64], s: f64, tmp: &mut [f64]| {
-        s.is_finite() && s > 0.0 && all_singular_below(u, k, s * bound, tmp)
-    };
-    if certified(r, smax, tmp) && certified(rinv, inv_smin, tmp) {
-        return smax * inv_smin;
+    match (
+        certified_largest_singular(r, k, tmp),
+        certified_largest_singular(rinv, k, tmp),
+    ) {
+        (Some(smax), Some(inv_smin)) => smax * inv_smin,
+        _ => exact_largest_singular(r, k) * exact_largest_singular(rinv, k),
     }
-    exact_largest_singular(r, k) * exact_largest_singular(rinv, k)
 }
 
-/// Whether every singular value of the upper-triangular k × k `u` is below `bound`: whether
-/// bound²·I − U'U is positive definite, by a Cholesky factorisation of it in `tmp` (k² slots).
-/// A floating-point Cholesky that succeeds proves a matrix within a few rounding errors of the
-/// given one positive definite, so a pass certifies the bound up to about 1e-15 relative.
-fn all_singular_below(u: &[f64], k: usize, bound: f64, tmp: &mut [f64]) -> bool {
-    let a = &mut tmp[..k * k];
-    let mu = bound * bound;
-    // Lower triangle of μI − U'U (column-major): (U'U)[i, j] = Σ_{l ≤ min(i, j)} U[l, i]·U[l, j].
+/// The largest singular value σ of the upper-triangular k × k `u`, certified to
+/// [`CONDITION_ACCURACY`], or `None` when the certificate fails. `tmp` needs 2k(k + 1) slots.
+///
+/// Power iteration on the explicit G = U'U gives s = √(x'Gx) ≤ σ. It starts from G's
+/// longest column (one step from the unit vector with the largest image), which cut the steps
+/// by a third on a real grid against a fixed start vector. Its stopping rule (a relative change
+/// under 1e-6) cannot tell a slow climb from convergence, and from a poor start it can settle
+/// near the second singular value (8% low on some models of a real grid). So s is certified:
+/// if (s(1 + δ))²·I − G has a Cholesky factor, every singular value of U is below s(1 + δ).
+fn certified_largest_singular(u: &[f64], k: usize, tmp: &mut [f64]) -> Option<f64> {
+    let (gram, work) = tmp[..2 * k * (k + 1)].split_at_mut(k * k);
+    // G[i, j] = Σ_{l ≤ min(i, j)} U[l, i]·U[l, j], both triangles (column-major).
     for j in 0..k {
         for i in j..k {
             let g: f64 = (0..=j).map(|l| u[l + i * k] * u[l + j * k]).sum();
-            a[i + j * k] = if i == j { mu - g } else { -g };
+            gram[i + j * k] = g;
+            gram[j + i * k] = g;
+        }
+    }
+    let s = gram_power(gram, k, work);
+    (s.is_finite()
+        && s > 0.0
+        && all_eigen_below(gram, k, (s * (1.0 + CONDITION_ACCURACY)).powi(2), work))
+    .then_some(s)
+}
+
+/// Power iteration for √λ_max of the symmetric k × k `gram` (column-major) from its longest
+/// column; `work` needs 2k slots. The entries are bounded (unit-norm columns, or the inverse of
+/// such a factor under the condition limit), so plain sums of squares cannot overflow.
+fn gram_power(gram: &[f64], k: usize, work: &mut [f64]) -> f64 {
+    let (x, z) = work[..2 * k].split_at_mut(k);
+    let column = |j: usize| &gram[j * k..j * k + k];
+    let longest = (0..k)
+        .map(|j| (j, dot(column(j), column(j))))
+        .fold((0, -1.0), |best, c| if c.1 > best.1 { c } else { best })
+        .0;
+    x.copy_from_slice(column(longest));
+    let mut sigma = 0.0;
+    for _ in 0..40 {
+        let nx = dot(x, x).sqrt();
+        if nx == 0.0 || !nx.is_finite() {
+            return if nx == 0.0 { 0.0 } else { f64::INFINITY };
+        }
+        let inv = 1.0 / nx;
+        x.iter_mut().for_each(|v| *v *= inv);
+        // z = G x, column by column.
+        z.fill(0.0);
+        for (l, &xl) in x.iter().enumerate() {
+            for (zi, &g) in z.iter_mut().zip(column(l)) {
+                *zi += g * xl;
+            }
+        }
+        let new_sigma = dot(x, z).max(0.0).sqrt();
+        x.copy_from_slice(z);
+        if (new_sigma - sigma).abs() <= 1e-6 * new_sigma {
+            return new_sigma;
+        }
+        sigma = new_sigma;
+    }
+    sigma
+}
+
+/// Whether every eigenvalue of the symmetric k × k `gram` is below `mu`: whether μI − G is
+/// positive definite, by a Cholesky factorisation of it in `work` (k² slots). A floating-point
+/// Cholesky that succeeds proves a matrix within a few rounding errors of the given one
+/// positive definite, so a pass certifies the bound up to about 1e-15 relative.
+fn all_eigen_below(gram: &[f64], k: usize, mu: f64, work: &mut [f64]) -> bool {
+    let a = &mut work[..k * k];
+    for j in 0..k {
+        for i in j..k {
+            a[i + j * k] = if i == j { mu } else { 0.0 } - gram[i + j * k];
         }
     }
     // Cholesky in place, lower triangle, column by column.
@@ -192,48 +242,6 @@ fn exact_largest_singular(u: &[f64], k: usize) -> f64 {
         Ok(values) => values.first().copied().unwrap_or(0.0),
         Err(_) => f64::INFINITY,
     }
-}
-
-/// Power iteration for the largest singular value of an upper-triangular k × k matrix.
-///
-/// The entries are bounded (unit-norm columns, or the inverse of such a factor under the
-/// condition limit), so plain sums of squares cannot overflow and no scaled norm is needed; the
-/// loops are written index by index because this runs twice per model (docs/performance.md).
-fn largest_singular(u: &[f64], k: usize, tmp: &mut [f64]) -> f64 {
-    let (x, y) = tmp[..2 * k].split_at_mut(k);
-    let u = &u[..k * k];
-    // A start vector with no special structure, so it is unlikely to be orthogonal to the top
-    // singular vector.
-    for (i, xi) in x.iter_mut().enumerate() {
-        *xi = 1.0 + 0.1 * ((i * 7919) % 13) as f64;
-    }
-    let mut sigma = 0.0;
-    for _ in 0..40 {
-        let nx = dot(x, x).sqrt();
-        if nx == 0.0 || !nx.is_finite() {
-            return if nx == 0.0 { 0.0 } else { f64::INFINITY };
-        }
-        let inv = 1.0 / nx;
-        x.iter_mut().for_each(|v| *v *= inv);
-        // y = U x: row i of U is zero left of the diagonal.
-        y.fill(0.0);
-        for (l, &xl) in x.iter().enumerate() {
-            let col = &u[l * k..l * k + l + 1];
-            for (yi, &ui) in y[..=l].iter_mut().zip(col) {
-                *yi += ui * xl;
-            }
-        }
-        let new_sigma = dot(y, y).sqrt();
-        // x = U' y: column l of U has rows 0..=l.
-        for (l, xl) in x.iter_mut().enumerate() {
-            *xl = dot(&u[l * k..l * k + l + 1], &y[..=l]);
-        }
-        if (new_sigma - sigma).abs() <= 1e-6 * new_sigma {
-            return new_sigma;
-        }
-        sigma = new_sigma;
-    }
-    sigma
 }
 
 /// Euclidean norm with scaling against overflow/underflow.
@@ -277,7 +285,7 @@ mod tests {
         let mut inv = [0.0; 4];
         upper_inverse(&r, 2, &mut inv);
         assert_eq!(inv, [0.5, 0.0, 0.0, 2.0]);
-        let mut tmp = [0.0; 4];
+        let mut tmp = [0.0; 12];
         let c = condition_estimate(&r, &inv, 2, &mut tmp);
         assert!((c - 4.0).abs() < 1e-9, "{c}");
     }
@@ -348,7 +356,7 @@ mod tests {
         let r = triangle(size);
         let mut inv = vec![0.0; size * size];
         upper_inverse(&r, size, &mut inv);
-        let mut tmp = vec![0.0; size * size];
+        let mut tmp = vec![0.0; 2 * size * (size + 1)];
         let estimate = condition_estimate(&r, &inv, size, &mut tmp);
         let m = faer::Mat::<f64>::from_fn(size, size, |i, j| r[i + j * size]);
         let s = m.singular_values().expect("svd");
@@ -359,8 +367,9 @@ mod tests {
         );
     }
 
-    /// A triangle on which the plain power iteration settles near the second singular value
-    /// (random entries, found by searching a thousand such triangles).
+    /// A triangle on which a power iteration from the fixed start vector 1 + 0.1·((7919 i) mod
+    /// 13) settled near the second singular value, 8% low (random entries, found by searching a
+    /// thousand such triangles).
     const STALLING: [&[f64]; 7] = [
         &[0.9636384782296343],
         &[0.2230313552074652, 0.9543707473434209],
@@ -406,25 +415,28 @@ mod tests {
         }
         let mut inv = vec![0.0; k * k];
         upper_inverse(&r, k, &mut inv);
-        let mut tmp = vec![0.0; k * k];
+        let mut tmp = vec![0.0; 2 * k * (k + 1)];
         // Reference: numpy 2.4.6, s = numpy.linalg.svd(R, compute_uv=False); s[0] / s[-1].
         let reference = 2.96722683707312;
-        let plain = largest_singular(&r, k, &mut tmp) * largest_singular(&inv, k, &mut tmp);
-        assert!(
-            (plain / reference - 1.0).abs() > 1e-2,
-            "the plain power iteration no longer stalls here ({plain}); pick another triangle"
-        );
-        assert!(!all_singular_below(
-            &r,
-            k,
-            largest_singular(&r, k, &mut tmp) * 1.00001,
-            &mut tmp
-        ));
         let certified = condition_estimate(&r, &inv, k, &mut tmp);
         assert!(
             (certified / reference - 1.0).abs() < CONDITION_ACCURACY,
             "{certified} vs {reference}"
         );
+        // Where a stalled iteration ends (the second singular value, from faer's SVD), the
+        // certificate refuses.
+        let m = faer::Mat::<f64>::from_fn(k, k, |i, j| r[i + j * k]);
+        let second = m.singular_values().expect("svd")[1];
+        let gram = gram_of(&r, k);
+        let bound = (second * (1.0 + CONDITION_ACCURACY)).powi(2);
+        assert!(!all_eigen_below(&gram, k, bound, &mut tmp));
+    }
+
+    /// U'U of an upper-triangular k × k U, both triangles.
+    fn gram_of(u: &[f64], k: usize) -> Vec<f64> {
+        let m = faer::Mat::<f64>::from_fn(k, k, |i, j| if i <= j { u[i + j * k] } else { 0.0 });
+        let g = m.transpose() * &m;
+        (0..k * k).map(|i| g[(i % k, i / k)]).collect()
     }
 
     #[test]
@@ -434,8 +446,19 @@ mod tests {
         let r = triangle(size);
         let m = faer::Mat::<f64>::from_fn(size, size, |i, j| r[i + j * size]);
         let top = m.singular_values().expect("svd")[0];
+        let gram = gram_of(&r, size);
         let mut tmp = vec![0.0; size * size];
-        assert!(all_singular_below(&r, size, top * (1.0 + 1e-9), &mut tmp));
-        assert!(!all_singular_below(&r, size, top * (1.0 - 1e-9), &mut tmp));
+        assert!(all_eigen_below(
+            &gram,
+            size,
+            (top * (1.0 + 1e-9)).powi(2),
+            &mut tmp
+        ));
+        assert!(!all_eigen_below(
+            &gram,
+            size,
+            (top * (1.0 - 1e-9)).powi(2),
+            &mut tmp
+        ));
     }
 }
