@@ -209,10 +209,13 @@ pub fn assemble(plan: &Plan, data: &LoadedData) -> Result<Assembly, DataError> {
         .collect();
     let mut warnings = Vec::new();
     let mut designs = Vec::new();
-    for (s, sample) in plan.samples.iter().enumerate() {
-        let models: Vec<usize> = (0..plan.models.len())
-            .filter(|&m| plan.models[m].sample == s)
-            .collect();
+    // Each sample's models in plan order, in one pass (a pass per sample over millions of
+    // models was most of this function).
+    let mut by_sample: Vec<Vec<usize>> = vec![Vec::new(); plan.samples.len()];
+    for (m, model) in plan.models.iter().enumerate() {
+        by_sample[model.sample].push(m);
+    }
+    for ((s, sample), models) in plan.samples.iter().enumerate().zip(by_sample) {
         if models.is_empty() {
             continue;
         }
@@ -541,6 +544,14 @@ impl Group {
 /// design of its own, demeaned and weighted once for all its models. Groups without settings
 /// pass through unchanged.
 fn split_by_settings(plan: &Plan, group: Group) -> Vec<Group> {
+    // Without absorbed effects or weights every model has the same (empty) settings.
+    if !plan.terms.iter().any(|t| t.is_design_setting()) {
+        return if group.models.is_empty() {
+            Vec::new()
+        } else {
+            vec![group]
+        };
+    }
     let mut parts: Vec<Group> = Vec::new();
     for &m in &group.models {
         let settings = plan.design_settings(&plan.models[m]);

@@ -4,6 +4,7 @@ use std::path::PathBuf;
 use std::time::Instant;
 
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
+use rayon::prelude::*;
 use specgrid_data::{Assembly, LoadedData};
 use specgrid_ols::{Covariance, FitOptions};
 use specgrid_report::Scale;
@@ -326,20 +327,24 @@ fn fit_chunk<'a>(
             continue;
         }
         progress.set_message(format!("sample `{}`", design.sample_name));
-        let mut tracked = Vec::with_capacity(members.len());
-        let mut specs = Vec::with_capacity(members.len());
-        for &m in members {
-            let mut spec = design
-                .model_spec(&plan.models[m])
-                .map_err(|e| Failure::Data(e.to_string()))?;
-            if all_terms {
-                // Empty tracked = inference for every coefficient of the model.
-                tracked.push(std::mem::take(&mut spec.tracked));
-            } else {
-                tracked.push(spec.tracked.clone());
-            }
-            specs.push(spec);
-        }
+        // Built on the rayon threads, which would otherwise wait for them.
+        let (specs, tracked): (Vec<_>, Vec<_>) = members
+            .par_iter()
+            .map(|&m| {
+                let mut spec = design
+                    .model_spec(&plan.models[m])
+                    .map_err(|e| Failure::Data(e.to_string()))?;
+                let tracked = if all_terms {
+                    // Empty tracked = inference for every coefficient of the model.
+                    std::mem::take(&mut spec.tracked)
+                } else {
+                    spec.tracked.clone()
+                };
+                Ok((spec, tracked))
+            })
+            .collect::<Result<Vec<_>, Failure>>()?
+            .into_iter()
+            .unzip();
         let mut fits = time("fit", || {
             factor.fit_many_with_progress(&specs, fit_options, &|k| progress.inc(k as u64))
         });
