@@ -242,7 +242,11 @@ impl<'a> SharedFactor<'a> {
                 out
             })
             .collect();
-        results.into_iter().flatten().collect()
+        let mut out = Vec::with_capacity(models.len());
+        for batch in results {
+            out.extend(batch);
+        }
+        out
     }
 
     fn fit_batch(

@@ -327,24 +327,24 @@ fn fit_chunk<'a>(
             continue;
         }
         progress.set_message(format!("sample `{}`", design.sample_name));
-        // Built on the rayon threads, which would otherwise wait for them.
-        let (specs, tracked): (Vec<_>, Vec<_>) = members
+        // Built on the rayon threads, which would otherwise wait for them, into vectors of
+        // the right size (grown by doubling they copied into fresh memory on this thread).
+        let built: Vec<Result<_, _>> = members
             .par_iter()
-            .map(|&m| {
-                let mut spec = design
-                    .model_spec(&plan.models[m])
-                    .map_err(|e| Failure::Data(e.to_string()))?;
-                let tracked = if all_terms {
-                    // Empty tracked = inference for every coefficient of the model.
-                    std::mem::take(&mut spec.tracked)
-                } else {
-                    spec.tracked.clone()
-                };
-                Ok((spec, tracked))
-            })
-            .collect::<Result<Vec<_>, Failure>>()?
-            .into_iter()
-            .unzip();
+            .map(|&m| design.model_spec(&plan.models[m]))
+            .collect();
+        let mut specs = Vec::with_capacity(members.len());
+        let mut tracked = Vec::with_capacity(members.len());
+        for spec in built {
+            let mut spec = spec.map_err(|e| Failure::Data(e.to_string()))?;
+            tracked.push(if all_terms {
+                // Empty tracked = inference for every coefficient of the model.
+                std::mem::take(&mut spec.tracked)
+            } else {
+                spec.tracked.clone()
+            });
+            specs.push(spec);
+        }
         let mut fits = time("fit", || {
             factor.fit_many_with_progress(&specs, fit_options, &|k| progress.inc(k as u64))
         });
