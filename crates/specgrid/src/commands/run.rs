@@ -334,15 +334,14 @@ fn fit_chunk<'a>(
             .map(|&m| design.model_spec(&plan.models[m]))
             .collect();
         let mut specs = Vec::with_capacity(members.len());
-        let mut tracked = Vec::with_capacity(members.len());
+        // With every coefficient requested the engine gets an empty tracked list; the tracked
+        // columns are kept aside for the results table.
+        let mut set_aside = Vec::with_capacity(if all_terms { members.len() } else { 0 });
         for spec in built {
             let mut spec = spec.map_err(|e| Failure::Data(e.to_string()))?;
-            tracked.push(if all_terms {
-                // Empty tracked = inference for every coefficient of the model.
-                std::mem::take(&mut spec.tracked)
-            } else {
-                spec.tracked.clone()
-            });
+            if all_terms {
+                set_aside.push(std::mem::take(&mut spec.tracked));
+            }
             specs.push(spec);
         }
         let mut fits = time("fit", || {
@@ -351,7 +350,12 @@ fn fit_chunk<'a>(
         wild_failures += time("inference", || {
             crate::wild::apply(plan, fit_options, design, members, &specs, &mut fits)
         });
-        for ((&m, fit), tracked) in members.iter().zip(fits).zip(tracked) {
+        let mut set_aside = set_aside.into_iter();
+        for ((&m, fit), spec) in members.iter().zip(fits).zip(specs) {
+            let tracked = match set_aside.next() {
+                Some(columns) => columns,
+                None => spec.tracked,
+            };
             slots[m - start] = Some(Estimated {
                 design_index,
                 design,
@@ -360,18 +364,16 @@ fn fit_chunk<'a>(
             });
         }
     }
-    let estimated = slots
-        .into_iter()
-        .enumerate()
-        .map(|(k, slot)| {
-            slot.map(|e| (start + k, e)).ok_or_else(|| {
-                Failure::Estimation(format!(
-                    "model {} was not assigned to any design (internal error; please report it)",
-                    plan.models[start + k].id
-                ))
-            })
-        })
-        .collect::<Result<Vec<_>, Failure>>()?;
+    let mut estimated = Vec::with_capacity(slots.len());
+    for (k, slot) in slots.into_iter().enumerate() {
+        let Some(e) = slot else {
+            return Err(Failure::Estimation(format!(
+                "model {} was not assigned to any design (internal error; please report it)",
+                plan.models[start + k].id
+            )));
+        };
+        estimated.push((start + k, e));
+    }
     Ok((estimated, wild_failures))
 }
 
