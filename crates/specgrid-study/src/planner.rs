@@ -302,7 +302,9 @@ fn duplicate_problems(
 /// twice). Ids are 48 bits of SHA-256, so unrelated models share one with odds of about 2⁻⁴⁸
 /// per pair.
 fn repeated_ids(mut id_order: Vec<(u64, usize)>) -> Vec<(usize, usize)> {
-    id_order.sort_unstable();
+    // Millions of ids: sorted on the rayon threads (the pairs are distinct, so the order is
+    // the same as a sequential sort's).
+    id_order.par_sort_unstable();
     id_order
         .windows(2)
         .filter(|w| w[0].0 == w[1].0)

@@ -112,7 +112,11 @@ pub fn render(
     report
         .write_all(dir)
         .map_err(|e| Failure::Output(e.to_string()))?;
-    Ok(report.terminal())
+    let terminal = report.terminal();
+    // Only `run` calls this, near the end of the process: the system takes the report's memory
+    // back at exit at once, where the destructors of millions of entries took tenths of a second.
+    std::mem::forget(report);
+    Ok(terminal)
 }
 
 /// Builds the report from the run's models (as [`crate::commands::run`] makes them from the
