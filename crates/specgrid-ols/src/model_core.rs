@@ -182,7 +182,7 @@ pub(crate) fn core_from_factor(
     }
     let mut rinv = vec![0.0; k * k];
     upper_inverse(parts.r, k, &mut rinv);
-    let mut tmp = vec![0.0; 2 * k * (k + 1)];
+    let mut tmp = vec![0.0; k * (2 * k + 3)];
     let condition = condition_estimate(parts.r, &rinv, k, &mut tmp);
     if condition.is_nan() || condition > opts.condition_limit {
         return Err(ModelError::IllConditioned {

@@ -131,7 +131,7 @@ pub(crate) const CONDITION_ACCURACY: f64 = 1e-5;
 /// relative accuracy of [`CONDITION_ACCURACY`]: σ_max(R)·σ_max(R⁻¹), each by
 /// [`certified_largest_singular`]. Where a certificate fails, both values come from an SVD
 /// instead (faer), exact to rounding but several times as costly; it served 0.4% of the models
-/// of a real grid. `tmp` needs 2k(k + 1) slots.
+/// of a real grid. `tmp` needs k(2k + 3) slots.
 pub(crate) fn condition_estimate(r: &[f64], rinv: &[f64], k: usize, tmp: &mut [f64]) -> f64 {
     if k == 0 {
         return 1.0;
@@ -146,7 +146,7 @@ pub(crate) fn condition_estimate(r: &[f64], rinv: &[f64], k: usize, tmp: &mut [f
 }
 
 /// The largest singular value σ of the upper-triangular k × k `u`, certified to
-/// [`CONDITION_ACCURACY`], or `None` when the certificate fails. `tmp` needs 2k(k + 1) slots.
+/// [`CONDITION_ACCURACY`], or `None` when the certificate fails. `tmp` needs k(2k + 3) slots.
 ///
 /// Power iteration on the explicit G = U'U gives s = √(x'Gx) ≤ σ. It starts from G's
 /// longest column (one step from the unit vector with the largest image), which cut the steps
@@ -155,7 +155,7 @@ pub(crate) fn condition_estimate(r: &[f64], rinv: &[f64], k: usize, tmp: &mut [f
 /// near the second singular value (8% low on some models of a real grid). So s is certified:
 /// if (s(1 + δ))²·I − G has a Cholesky factor, every singular value of U is below s(1 + δ).
 fn certified_largest_singular(u: &[f64], k: usize, tmp: &mut [f64]) -> Option<f64> {
-    let (gram, work) = tmp[..2 * k * (k + 1)].split_at_mut(k * k);
+    let (gram, work) = tmp[..k * (2 * k + 3)].split_at_mut(k * k);
     // G[i, j] = Σ_{l ≤ min(i, j)} U[l, i]·U[l, j], both triangles (column-major).
     for j in 0..k {
         for i in j..k {
@@ -172,39 +172,63 @@ fn certified_largest_singular(u: &[f64], k: usize, tmp: &mut [f64]) -> Option<f6
 }
 
 /// Power iteration for √λ_max of the symmetric k × k `gram` (column-major) from its longest
-/// column; `work` needs 2k slots. The entries are bounded (unit-norm columns, or the inverse of
+/// column; `work` needs 3k slots. The entries are bounded (unit-norm columns, or the inverse of
 /// such a factor under the condition limit), so plain sums of squares cannot overflow.
+///
+/// Each step waits on the one before, so the step is arranged for a short chain: the product
+/// sums even and odd columns apart, x'z and z'z are summed together in pairs, and z'z
+/// normalises the next x (no separate norm of x).
 fn gram_power(gram: &[f64], k: usize, work: &mut [f64]) -> f64 {
-    let (x, z) = work[..2 * k].split_at_mut(k);
+    let (x, rest) = work[..3 * k].split_at_mut(k);
+    let (z, odd) = rest.split_at_mut(k);
     let column = |j: usize| &gram[j * k..j * k + k];
     let longest = (0..k)
         .map(|j| (j, dot(column(j), column(j))))
         .fold((0, -1.0), |best, c| if c.1 > best.1 { c } else { best })
         .0;
     x.copy_from_slice(column(longest));
+    let norm = dot(x, x).sqrt();
+    if norm == 0.0 || !norm.is_finite() {
+        return if norm == 0.0 { 0.0 } else { f64::INFINITY };
+    }
+    let inv = 1.0 / norm;
+    x.iter_mut().for_each(|v| *v *= inv);
     let mut sigma = 0.0;
     for _ in 0..40 {
-        let nx = dot(x, x).sqrt();
-        if nx == 0.0 || !nx.is_finite() {
-            return if nx == 0.0 { 0.0 } else { f64::INFINITY };
-        }
-        let inv = 1.0 / nx;
-        x.iter_mut().for_each(|v| *v *= inv);
-        // z = G x, column by column.
+        // z = G x: even columns into z, odd columns into `odd`, then added.
         z.fill(0.0);
+        odd.fill(0.0);
         for (l, &xl) in x.iter().enumerate() {
-            for (zi, &g) in z.iter_mut().zip(column(l)) {
+            let target = if l % 2 == 0 { &mut *z } else { &mut *odd };
+            for (zi, &g) in target.iter_mut().zip(column(l)) {
                 *zi += g * xl;
             }
         }
-        let new_sigma = dot(x, z).max(0.0).sqrt();
-        x.copy_from_slice(z);
+        z.iter_mut().zip(odd.iter()).for_each(|(a, b)| *a += b);
+        let (xz, zz) = paired_dots(x, z);
+        let new_sigma = xz.max(0.0).sqrt();
+        let norm = zz.sqrt();
+        if norm == 0.0 || !norm.is_finite() {
+            return if norm == 0.0 { 0.0 } else { f64::INFINITY };
+        }
+        let inv = 1.0 / norm;
+        x.iter_mut().zip(z.iter()).for_each(|(a, b)| *a = b * inv);
         if (new_sigma - sigma).abs() <= 1e-6 * new_sigma {
             return new_sigma;
         }
         sigma = new_sigma;
     }
     sigma
+}
+
+/// (x'z, z'z), each summed in two interleaved halves.
+fn paired_dots(x: &[f64], z: &[f64]) -> (f64, f64) {
+    let (mut xz, mut zz) = ([0.0f64; 2], [0.0f64; 2]);
+    for (i, (&a, &b)) in x.iter().zip(z).enumerate() {
+        xz[i % 2] += a * b;
+        zz[i % 2] += b * b;
+    }
+    (xz[0] + xz[1], zz[0] + zz[1])
 }
 
 /// Whether every eigenvalue of the symmetric k × k `gram` is below `mu`: whether μI − G is
@@ -285,7 +309,7 @@ mod tests {
         let mut inv = [0.0; 4];
         upper_inverse(&r, 2, &mut inv);
         assert_eq!(inv, [0.5, 0.0, 0.0, 2.0]);
-        let mut tmp = [0.0; 12];
+        let mut tmp = [0.0; 14];
         let c = condition_estimate(&r, &inv, 2, &mut tmp);
         assert!((c - 4.0).abs() < 1e-9, "{c}");
     }
@@ -356,7 +380,7 @@ mod tests {
         let r = triangle(size);
         let mut inv = vec![0.0; size * size];
         upper_inverse(&r, size, &mut inv);
-        let mut tmp = vec![0.0; 2 * size * (size + 1)];
+        let mut tmp = vec![0.0; size * (2 * size + 3)];
         let estimate = condition_estimate(&r, &inv, size, &mut tmp);
         let m = faer::Mat::<f64>::from_fn(size, size, |i, j| r[i + j * size]);
         let s = m.singular_values().expect("svd");
@@ -415,7 +439,7 @@ mod tests {
         }
         let mut inv = vec![0.0; k * k];
         upper_inverse(&r, k, &mut inv);
-        let mut tmp = vec![0.0; 2 * k * (k + 1)];
+        let mut tmp = vec![0.0; k * (2 * k + 3)];
         // Reference: numpy 2.4.6, s = numpy.linalg.svd(R, compute_uv=False); s[0] / s[-1].
         let reference = 2.96722683707312;
         let certified = condition_estimate(&r, &inv, k, &mut tmp);
