@@ -4,7 +4,7 @@ use std::cmp::Ordering;
 
 use rayon::prelude::*;
 
-use crate::grid::{decode, full_size, Layout, ModelContent, SkipBox};
+use crate::grid::{decode, full_size, Layout, SkipBox};
 use crate::ids::{canonical_text, id_bits, model_id, outcome_text, sample_text};
 use crate::kept::Kept;
 use crate::plan::{Dimension, OutcomeForm, Plan, PlannedModel, RowPolicy, Term, Transform};
@@ -142,14 +142,15 @@ fn build(
         .iter()
         .map(|(_, f)| outcome_text(f))
         .collect();
-    let mut models = Vec::with_capacity(indices.len());
     // (id as a number, model position): sorted afterwards to find repeated ids.
     let mut id_order: Vec<(u64, usize)> = Vec::with_capacity(indices.len());
     let mut two_weights: Option<usize> = None;
     // Decoding, content and id of each model are independent, so they run on the rayon
-    // threads (the id's SHA-256 was most of the planner's time at millions of models); term
-    // numbers are then assigned in plan order, as before.
-    let described: Vec<(Vec<usize>, ModelContent, String)> = indices
+    // threads (the id's SHA-256 was most of the planner's time at millions of models). The
+    // models come out with the study's term and outcome numbers, renumbered below in plan order
+    // and in place (at millions of models a second copy of every list was hundreds of megabytes
+    // of fresh memory).
+    let mut models: Vec<PlannedModel> = indices
         .par_iter()
         .map_init(String::new, |text, &index| {
             let choices = decode(index, &radices);
@@ -162,49 +163,47 @@ fn build(
                 study.intercept,
                 text,
             );
-            let id = model_id(text);
-            (choices, content, id)
+            PlannedModel {
+                id: model_id(text),
+                choices,
+                outcome: content.outcome,
+                sample: content.sample,
+                terms: content.terms,
+                tracked: content.tracked,
+                intercept: study.intercept,
+            }
         })
         .collect();
     drop(indices);
-    for (choices, content, id) in described {
+    for (position, model) in models.iter_mut().enumerate() {
         let mut number = |t: &mut usize| {
             *t = *plan_term[*t].get_or_insert_with(|| {
                 terms.push(table.terms[*t].clone());
                 terms.len() - 1
             })
         };
-        // Renumbered in place: at millions of models a second copy of every term list was a
-        // few hundred megabytes of fresh memory.
-        let (mut model_terms, mut tracked) = (content.terms, content.tracked);
-        model_terms.iter_mut().for_each(&mut number);
-        tracked.iter_mut().for_each(&mut number);
-        let form = &study.outcome.forms[content.outcome].1;
-        let outcome = *plan_outcome[content.outcome].get_or_insert_with(|| {
+        model.terms.iter_mut().for_each(&mut number);
+        model.tracked.iter_mut().for_each(&mut number);
+        let form = &study.outcome.forms[model.outcome].1;
+        model.outcome = *plan_outcome[model.outcome].get_or_insert_with(|| {
             outcomes.push(form.clone());
             outcomes.len() - 1
         });
-        id_order.push((id_bits(&id), models.len()));
-        let absorbs = model_terms
+        id_order.push((id_bits(&model.id), position));
+        let absorbs = model
+            .terms
             .iter()
             .any(|&t| matches!(terms[t], Term::Absorbed { .. }));
-        let weight_terms = model_terms
+        let weight_terms = model
+            .terms
             .iter()
             .filter(|&&t| matches!(terms[t], Term::Weights { .. }))
             .count();
         if weight_terms > 1 && two_weights.is_none() {
-            two_weights = Some(models.len());
+            two_weights = Some(position);
         }
-        models.push(PlannedModel {
-            id,
-            choices,
-            outcome,
-            sample: content.sample,
-            terms: model_terms,
-            tracked,
-            // Absorbed effects span the constant, so the model has none of its own.
-            intercept: study.intercept && !absorbs,
-        });
+        // Absorbed effects span the constant, so the model has none of its own.
+        model.intercept = study.intercept && !absorbs;
     }
     let mut plan = Plan {
         title: study.title.clone(),
