@@ -75,7 +75,7 @@ fn figure(report: &Report) -> String {
         return String::new();
     }
     let baseline = baseline_index(&report.input).map(|(i, _)| i);
-    let marks = group(report, &pts, baseline, TEX_MARKS);
+    let marks = group(report, pts, baseline, TEX_MARKS);
     let lo = pts
         .iter()
         .map(|p| p.low.unwrap_or(p.estimate))

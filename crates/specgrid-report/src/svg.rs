@@ -41,7 +41,7 @@ pub fn spec_curve(report: &Report) -> String {
         return "<p>No model has an estimate, so there is no curve to draw.</p>".into();
     }
     let baseline = baseline_index(input).map(|(i, _)| i);
-    let marks = group(report, &pts, baseline, MAX_MARKS);
+    let marks = group(report, pts, baseline, MAX_MARKS);
     let grouped = pts.len() > MAX_MARKS;
 
     let curve_top = 20.0;

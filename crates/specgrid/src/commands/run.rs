@@ -332,16 +332,20 @@ fn fit_chunk<'a>(
         progress.set_message(format!("sample `{}`", design.sample_name));
         // Built on the rayon threads, which would otherwise wait for them, into vectors of
         // the right size (grown by doubling they copied into fresh memory on this thread).
-        let built: Vec<Result<_, _>> = members
+        let built: Vec<Result<_, Failure>> = members
             .par_iter()
-            .map(|&m| design.model_spec(&plan.models[m]))
+            .map(|&m| {
+                design
+                    .model_spec(&plan.models[m])
+                    .map_err(|e| Failure::Data(e.to_string()))
+            })
             .collect();
         let mut specs = Vec::with_capacity(members.len());
         // With every coefficient requested the engine gets an empty tracked list; the tracked
         // columns are kept aside for the results table.
         let mut set_aside = Vec::with_capacity(if all_terms { members.len() } else { 0 });
         for spec in built {
-            let mut spec = spec.map_err(|e| Failure::Data(e.to_string()))?;
+            let mut spec = spec?;
             if all_terms {
                 set_aside.push(std::mem::take(&mut spec.tracked));
             }
