@@ -7,7 +7,9 @@ use rayon::prelude::*;
 
 use crate::effect::{Effect, Scale};
 use crate::input::{ModelEntry, ModelStatus, ReportInput};
-use crate::stats::{mean, median, quantile_sorted, standard_normal_cdf, two_sided_p};
+use crate::stats::{
+    mean, median, median_in_place, quantile_sorted, standard_normal_cdf, two_sided_p,
+};
 use crate::summary::*;
 use crate::ReportError;
 
@@ -68,6 +70,15 @@ pub fn validate(input: &ReportInput) -> Result<(), ReportError> {
 
 /// Computes every aggregate of the report.
 pub fn summarize(input: &ReportInput) -> Result<Summary, ReportError> {
+    summarize_with_order(input).map(|(summary, _)| summary)
+}
+
+/// [`summarize`], and the models of the first covariance choice sorted by estimate (ties by
+/// id) as (estimate, model index): the order the specification curve draws them in, sorted
+/// here anyway for the summary.
+pub(crate) fn summarize_with_order(
+    input: &ReportInput,
+) -> Result<(Summary, Vec<(f64, usize)>), ReportError> {
     validate(input)?;
     let baseline_index = baseline_index(input);
     let estimated = input
@@ -77,16 +88,24 @@ pub fn summarize(input: &ReportInput) -> Result<Summary, ReportError> {
         .count();
     // The aggregates read the same models independently; at millions of models each is a few
     // seconds, so they run side by side on the rayon threads (the result does not depend on it).
-    let (by_errors, (decisions, diagnostics)) = rayon::join(
+    let (with_orders, (decisions, diagnostics)) = rayon::join(
         || {
             (0..input.error_labels.len())
                 .into_par_iter()
                 .map(|e| error_summary(input, e, baseline_index.map(|(i, _)| i)))
-                .collect()
+                .collect::<Vec<_>>()
         },
         || rayon::join(|| decision_influence(input), || diagnostics(input)),
     );
-    Ok(Summary {
+    let mut first_order = Vec::new();
+    let mut by_errors = Vec::with_capacity(with_orders.len());
+    for (e, (summary, order)) in with_orders.into_iter().enumerate() {
+        if e == 0 {
+            first_order = order;
+        }
+        by_errors.push(summary);
+    }
+    let summary = Summary {
         format: SUMMARY_FORMAT,
         title: input.title.clone(),
         scale: input.scale.label(),
@@ -108,7 +127,8 @@ pub fn summarize(input: &ReportInput) -> Result<Summary, ReportError> {
         diagnostics,
         cautions: cautions(input),
         across_grid: input.across_grid.clone(),
-    })
+    };
+    Ok((summary, first_order))
 }
 
 /// Index of the baseline model and how it was chosen: the study's named model if it has an
@@ -182,7 +202,11 @@ pub fn significance(effect: &Effect, alpha: f64) -> Option<bool> {
     }
 }
 
-fn error_summary(input: &ReportInput, e: usize, baseline: Option<usize>) -> ErrorSummary {
+fn error_summary(
+    input: &ReportInput,
+    e: usize,
+    baseline: Option<usize>,
+) -> (ErrorSummary, Vec<(f64, usize)>) {
     let alpha = input.significance_level;
     // (estimate, model index), sorted by estimate then id for deterministic ties.
     let mut sorted: Vec<(f64, usize)> = input
@@ -231,7 +255,7 @@ fn error_summary(input: &ReportInput, e: usize, baseline: Option<usize>) -> Erro
     }
     let q1 = quantile_sorted(&values, 0.25);
     let q3 = quantile_sorted(&values, 0.75);
-    ErrorSummary {
+    let summary = ErrorSummary {
         errors: input.error_labels[e].clone(),
         models: n,
         models_with_std_error: with_se,
@@ -249,7 +273,8 @@ fn error_summary(input: &ReportInput, e: usize, baseline: Option<usize>) -> Erro
         max: sorted.last().map(at),
         extreme_bounds: extreme_bounds(input, &effects),
         cdf_zero: cdf_zero(input, &effects),
-    }
+    };
+    (summary, sorted)
 }
 
 /// One covariance choice's effects in the order of `order` (estimate, model index).
@@ -543,12 +568,11 @@ fn candidate_influence(
             let shift =
                 (n > 0 && without > 0).then(|| sum / n as f64 - (total_sum - sum) / without as f64);
             let mean_with = (n > 0).then(|| sum / n as f64);
-            vals.sort_by(f64::total_cmp);
             OptionInfluence {
                 option: panel.labels[row].clone(),
                 models: n,
                 mean: mean_with,
-                median: quantile_sorted(&vals, 0.5),
+                median: median_in_place(&mut vals),
                 share_significant: significant[row]
                     .iter()
                     .map(|&k| (members[row] > 0).then(|| k as f64 / members[row] as f64))

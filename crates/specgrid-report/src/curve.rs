@@ -60,15 +60,13 @@ pub(crate) fn points(report: &Report) -> &[Point] {
 fn sorted_points(report: &Report) -> Vec<Point> {
     let input = &report.input;
     let level = input.confidence_level;
-    let mut pts: Vec<Point> = input
-        .models
+    // The summary already sorted these models (those with a finite estimate under the first
+    // choice) by estimate, ties by id; the curve draws them in that order.
+    report
+        .curve_order
         .iter()
-        .enumerate()
-        .filter_map(|(i, m)| {
-            let f = m.effects[0]?;
-            if !f.estimate.is_finite() {
-                return None;
-            }
+        .filter_map(|&(_, i)| {
+            let f = input.models[i].effects[0]?;
             let half = f.std_error.filter(|s| s.is_finite() && *s > 0.0).map(|se| {
                 let q = crate::stats::interval_multiplier(level, f.df);
                 q * se
@@ -81,15 +79,7 @@ fn sorted_points(report: &Report) -> Vec<Point> {
                 model: i,
             })
         })
-        .collect();
-    pts.sort_by(|a, b| {
-        a.estimate.total_cmp(&b.estimate).then_with(|| {
-            input.models[a.model]
-                .model_id
-                .cmp(&input.models[b.model].model_id)
-        })
-    });
-    pts
+        .collect()
 }
 
 /// At most `max_marks` groups of neighbouring sorted models (one model per group when few).

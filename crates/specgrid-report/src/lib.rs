@@ -97,6 +97,9 @@ pub struct Report {
     pub input: ReportInput,
     /// The aggregates.
     pub summary: Summary,
+    /// The models of the first covariance choice sorted by estimate, ties by id, as (estimate,
+    /// model index): sorted once for the summary, drawn in this order by the curve.
+    curve_order: Vec<(f64, usize)>,
     /// The specification curve's sorted points, made by the first figure that needs them.
     curve: std::sync::OnceLock<Vec<curve::Point>>,
 }
@@ -116,10 +119,11 @@ const EFFECTS_FILE: usize = 1;
 impl Report {
     /// Checks the input and computes the aggregates.
     pub fn build(input: ReportInput) -> Result<Report, ReportError> {
-        let summary = summarize(&input)?;
+        let (summary, first_order) = aggregate::summarize_with_order(&input)?;
         Ok(Report {
             input,
             summary,
+            curve_order: first_order,
             curve: std::sync::OnceLock::new(),
         })
     }
