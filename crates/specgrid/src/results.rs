@@ -176,13 +176,13 @@ impl<'a> ResultsTable<'a> {
         // Text the models own (not borrowed for 'a), gathered by the caller.
         let owned_text = |name: &str, v: Vec<&str>| Column::new(name.into(), v);
         let rows = 0..self.len();
+        // Straight into polars' builder (what `Column::new` of a vector of options does after
+        // the vector is made: the vector was a few megabytes per column and chunk).
         let float = |name: &str, f: &dyn Fn(usize) -> Option<f64>| {
-            let v: Vec<Option<f64>> = (0..self.len()).map(f).collect();
-            Column::new(name.into(), v)
+            Float64Chunked::from_iter_options(name.into(), (0..self.len()).map(f)).into_column()
         };
         let int = |name: &str, f: &dyn Fn(usize) -> Option<u64>| {
-            let v: Vec<Option<u64>> = (0..self.len()).map(f).collect();
-            Column::new(name.into(), v)
+            UInt64Chunked::from_iter_options(name.into(), (0..self.len()).map(f)).into_column()
         };
         let mut columns = vec![text("model_id", &|i| owner(i).model_id)];
         for (d, name) in self.dimension_names.iter().enumerate() {
