@@ -171,10 +171,12 @@ impl Manifest {
 
 /// SHA-256 of a byte string as 64 lowercase hex digits.
 pub fn sha256_hex(bytes: &[u8]) -> String {
-    Sha256::digest(bytes)
-        .iter()
-        .map(|b| format!("{b:02x}"))
-        .collect()
+    lower_hex(&Sha256::digest(bytes))
+}
+
+/// Bytes as lowercase hex digits, two per byte.
+fn lower_hex(bytes: &[u8]) -> String {
+    bytes.iter().map(|b| format!("{b:02x}")).collect()
 }
 
 /// SHA-256 of a file's bytes as 64 lowercase hex digits, read through a fixed buffer (result
@@ -182,11 +184,7 @@ pub fn sha256_hex(bytes: &[u8]) -> String {
 pub fn file_sha256_hex(path: &Path) -> std::io::Result<String> {
     let mut hasher = Sha256::new();
     std::io::copy(&mut std::fs::File::open(path)?, &mut hasher)?;
-    Ok(hasher
-        .finalize()
-        .iter()
-        .map(|b| format!("{b:02x}"))
-        .collect())
+    Ok(lower_hex(&hasher.finalize()))
 }
 
 /// The current time, UTC, RFC 3339 with seconds.
