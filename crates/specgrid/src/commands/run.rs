@@ -320,7 +320,11 @@ fn fit_chunk<'a>(
 ) -> Result<(Chunk<'a>, usize), Failure> {
     let (start, end) = (range.start, range.end);
     let mut wild_failures = 0;
-    let mut slots: Vec<Option<Estimated<'a>>> = (start..end).map(|_| None).collect();
+    // Each design's fits, in plan order within the design, are merged into plan order below:
+    // each model is moved once, into its place in the chunk (the chunk's results are tens of
+    // megabytes, moved on this thread while the workers wait).
+    let mut per_design: Vec<DesignFits<'a>> = Vec::new();
+    let mut owner: Vec<u32> = vec![u32::MAX; end - start];
     for (design_index, (design, factor)) in assembly.designs.iter().zip(factors).enumerate() {
         // A design's models are in plan order, so the chunk's are one contiguous run.
         let from = design.models.partition_point(|&m| m < start);
@@ -357,23 +361,22 @@ fn fit_chunk<'a>(
         wild_failures += time("inference", || {
             crate::wild::apply(plan, fit_options, design, members, &specs, &mut fits)
         });
-        let mut set_aside = set_aside.into_iter();
-        for ((&m, fit), spec) in members.iter().zip(fits).zip(specs) {
-            let tracked = match set_aside.next() {
-                Some(columns) => columns,
-                None => spec.tracked,
-            };
-            slots[m - start] = Some(Estimated {
-                design_index,
-                design,
-                tracked,
-                fit,
-            });
+        let slot = per_design.len() as u32;
+        for &m in members {
+            owner[m - start] = slot;
         }
+        per_design.push(DesignFits {
+            design_index,
+            design,
+            fits: fits.into_iter(),
+            specs: specs.into_iter(),
+            set_aside: set_aside.into_iter(),
+        });
     }
-    let mut estimated = Vec::with_capacity(slots.len());
-    for (k, slot) in slots.into_iter().enumerate() {
-        let Some(e) = slot else {
+    let mut estimated = Vec::with_capacity(end - start);
+    for (k, &slot) in owner.iter().enumerate() {
+        let next = per_design.get_mut(slot as usize).and_then(DesignFits::next);
+        let Some(e) = next else {
             return Err(Failure::Estimation(format!(
                 "model {} was not assigned to any design (internal error; please report it)",
                 plan.models[start + k].id
@@ -382,6 +385,30 @@ fn fit_chunk<'a>(
         estimated.push((start + k, e));
     }
     Ok((estimated, wild_failures))
+}
+
+/// One design's fits within a chunk, handed out in plan order by [`DesignFits::next`].
+struct DesignFits<'a> {
+    design_index: usize,
+    design: &'a specgrid_data::SampleDesign,
+    fits: std::vec::IntoIter<Result<specgrid_ols::ModelFit, specgrid_ols::ModelError>>,
+    specs: std::vec::IntoIter<specgrid_ols::ModelSpec>,
+    /// With every coefficient requested, the tracked columns taken out of the specs.
+    set_aside: std::vec::IntoIter<Vec<usize>>,
+}
+
+impl<'a> DesignFits<'a> {
+    /// The design's next model as the results writer takes it.
+    fn next(&mut self) -> Option<Estimated<'a>> {
+        let fit = self.fits.next()?;
+        let spec = self.specs.next()?;
+        Some(Estimated {
+            design_index: self.design_index,
+            design: self.design,
+            tracked: self.set_aside.next().unwrap_or(spec.tracked),
+            fit,
+        })
+    }
 }
 
 fn progress_bar(total: u64, quiet: bool) -> ProgressBar {
