@@ -83,9 +83,11 @@ pub(crate) fn factor_in_order(
         a[c * rows + r] = alpha;
         a[c * rows + r + 1..=c * rows + end].fill(0.0);
         if vtv > 0.0 {
+            // One division per reflection, not one per column it is applied to.
+            let twice_inv = 2.0 / vtv;
             for c2 in c + 1..cols {
                 let col = &mut a[c2 * rows + r..=c2 * rows + end];
-                let s = 2.0 * dot(v, col) / vtv;
+                let s = dot(v, col) * twice_inv;
                 for (ci, vi) in col.iter_mut().zip(v.iter()) {
                     *ci -= s * vi;
                 }
@@ -273,8 +275,25 @@ fn exact_largest_singular(u: &[f64], k: usize) -> f64 {
     }
 }
 
-/// Euclidean norm with scaling against overflow/underflow.
+/// Smallest sum of squares [`norm2`] takes without scaling: squares that underflow (below
+/// about 2e-308 each) are then less than 1e-50 of it relative, far below one rounding.
+const PLAIN_SUM_FLOOR: f64 = 1e-250;
+
+/// Euclidean norm, safe against overflow and underflow: the plain sum of squares where it is
+/// finite and far above the underflow threshold (nearly always), else the sum of squares of the
+/// entries divided by the largest one. Scaling every entry cost a division each, a fifth of the
+/// per-model QR (docs/performance.md, session 7).
 pub(crate) fn norm2(v: &[f64]) -> f64 {
+    let plain: f64 = v.iter().map(|x| x * x).sum();
+    if plain.is_finite() && plain >= PLAIN_SUM_FLOOR {
+        return plain.sqrt();
+    }
+    scaled_norm2(v)
+}
+
+/// Euclidean norm with every entry divided by the largest first (the slow, safe path of
+/// [`norm2`]).
+fn scaled_norm2(v: &[f64]) -> f64 {
     let scale = v.iter().fold(0.0f64, |m, x| m.max(x.abs()));
     if scale == 0.0 || !scale.is_finite() {
         return scale;
@@ -306,6 +325,18 @@ mod tests {
         assert!((a[0].abs() - 2f64.sqrt()).abs() < 1e-15);
         // y = (1,2,3): projection on span{(1,1,0),(0,0,1)} leaves (-0.5, 0.5, 0), norm √0.5.
         assert!((out.resid_norm - 0.5f64.sqrt()).abs() < 1e-15);
+    }
+
+    #[test]
+    fn norm_is_safe_at_both_ends_of_the_range() {
+        // Reference: hand-worked 3-4-5 triangles, scaled by powers of two (exact in binary).
+        for scale in [1.0, 2f64.powi(600), 2f64.powi(-600), 2f64.powi(-1070)] {
+            let v = [3.0 * scale, 4.0 * scale];
+            assert_eq!(norm2(&v), 5.0 * scale, "scale {scale:e}");
+        }
+        assert_eq!(norm2(&[0.0, 0.0]), 0.0);
+        assert_eq!(norm2(&[]), 0.0);
+        assert_eq!(norm2(&[f64::INFINITY, 1.0]), f64::INFINITY);
     }
 
     #[test]
