@@ -183,11 +183,11 @@ fn certified_largest_singular(u: &[f64], k: usize, tmp: &mut [f64]) -> Option<f6
 /// such a factor under the condition limit), so plain sums of squares cannot overflow.
 ///
 /// Each step waits on the one before, so the step is arranged for a short chain: the product
-/// sums even and odd columns apart, x'z and z'z are summed together in pairs, and z'z
+/// is k independent dot products, x'z and z'z are summed together in pairs, and z'z
 /// normalises the next x (no separate norm of x).
 fn gram_power(gram: &[f64], k: usize, work: &mut [f64]) -> f64 {
     let (x, rest) = work[..3 * k].split_at_mut(k);
-    let (z, odd) = rest.split_at_mut(k);
+    let z = &mut rest[..k];
     let column = |j: usize| &gram[j * k..j * k + k];
     let longest = (0..k)
         .map(|j| (j, dot(column(j), column(j))))
@@ -202,16 +202,12 @@ fn gram_power(gram: &[f64], k: usize, work: &mut [f64]) -> f64 {
     x.iter_mut().for_each(|v| *v *= inv);
     let mut sigma = 0.0;
     for _ in 0..40 {
-        // z = G x: even columns into z, odd columns into `odd`, then added.
-        z.fill(0.0);
-        odd.fill(0.0);
-        for (l, &xl) in x.iter().enumerate() {
-            let target = if l % 2 == 0 { &mut *z } else { &mut *odd };
-            for (zi, &g) in target.iter_mut().zip(column(l)) {
-                *zi += g * xl;
-            }
+        // z = G x, entry i as the dot product of G's column i (G is symmetric) with x: k
+        // independent sums in registers, which the processor overlaps, where accumulating
+        // column by column into z went through memory at every step.
+        for (i, zi) in z.iter_mut().enumerate() {
+            *zi = dot(column(i), x);
         }
-        z.iter_mut().zip(odd.iter()).for_each(|(a, b)| *a += b);
         let (xz, zz) = paired_dots(x, z);
         let new_sigma = xz.max(0.0).sqrt();
         let norm = zz.sqrt();
@@ -228,14 +224,24 @@ fn gram_power(gram: &[f64], k: usize, work: &mut [f64]) -> f64 {
     sigma
 }
 
-/// (x'z, z'z), each summed in two interleaved halves.
+/// (x'z, z'z), each summed in two interleaved halves (even and odd entries), the halves held in
+/// four named accumulators: an array indexed by i % 2 was kept on the stack and every add
+/// went through memory.
 fn paired_dots(x: &[f64], z: &[f64]) -> (f64, f64) {
-    let (mut xz, mut zz) = ([0.0f64; 2], [0.0f64; 2]);
-    for (i, (&a, &b)) in x.iter().zip(z).enumerate() {
-        xz[i % 2] += a * b;
-        zz[i % 2] += b * b;
+    let (mut xz_even, mut xz_odd, mut zz_even, mut zz_odd) = (0.0f64, 0.0f64, 0.0f64, 0.0f64);
+    let mut xs = x.chunks_exact(2);
+    let mut zs = z.chunks_exact(2);
+    for (a, b) in (&mut xs).zip(&mut zs) {
+        xz_even += a[0] * b[0];
+        xz_odd += a[1] * b[1];
+        zz_even += b[0] * b[0];
+        zz_odd += b[1] * b[1];
     }
-    (xz[0] + xz[1], zz[0] + zz[1])
+    if let ([a], [b]) = (xs.remainder(), zs.remainder()) {
+        xz_even += a * b;
+        zz_even += b * b;
+    }
+    (xz_even + xz_odd, zz_even + zz_odd)
 }
 
 /// Whether every eigenvalue of the symmetric k × k `gram` is below `mu`: whether μI − G is
@@ -337,6 +343,22 @@ mod tests {
         assert_eq!(norm2(&[0.0, 0.0]), 0.0);
         assert_eq!(norm2(&[]), 0.0);
         assert_eq!(norm2(&[f64::INFINITY, 1.0]), f64::INFINITY);
+    }
+
+    #[test]
+    fn paired_dots_sum_even_and_odd_entries_apart() {
+        for len in 0..12 {
+            let x: Vec<f64> = (0..len).map(|i| 1.0 / (i as f64 + 1.5)).collect();
+            let z: Vec<f64> = (0..len).map(|i| (i as f64 * 0.7).sin()).collect();
+            let (mut xz, mut zz) = ([0.0f64; 2], [0.0f64; 2]);
+            for i in 0..len {
+                xz[i % 2] += x[i] * z[i];
+                zz[i % 2] += z[i] * z[i];
+            }
+            let (a, b) = paired_dots(&x, &z);
+            assert_eq!(a.to_bits(), (xz[0] + xz[1]).to_bits(), "length {len}");
+            assert_eq!(b.to_bits(), (zz[0] + zz[1]).to_bits(), "length {len}");
+        }
     }
 
     #[test]
