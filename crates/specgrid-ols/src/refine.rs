@@ -70,14 +70,16 @@ pub(crate) fn needs_refinement(core: &CoreFit) -> bool {
         .sqrt();
     let y_norm = core.tss.uncentred.sqrt();
     let r_norm = core.rss.sqrt();
-    let rinv = |i: usize, c: usize| if i <= c { core.rinv[i + c * k] } else { 0.0 };
+    // R⁻¹ is upper triangular: entry (i, c) is stored for i ≤ c, and every index below has
+    // c ≥ the row, so the entries are read directly (no test for the zero triangle).
+    let rinv = &core.rinv;
     yardsticks(core).iter().enumerate().any(|(j, &yard)| {
-        let row_inv = (j..k).map(|c| rinv(j, c).powi(2)).sum::<f64>().sqrt();
-        // Row j of R⁻¹R⁻ᵀ: (R⁻¹R⁻ᵀ)[j, l] = Σ_c R⁻¹[j, c]·R⁻¹[l, c].
+        let row_inv = (j..k).map(|c| rinv[j + c * k].powi(2)).sum::<f64>().sqrt();
+        // Row j of R⁻¹R⁻ᵀ: (R⁻¹R⁻ᵀ)[j, l] = Σ_{c ≥ max(j, l)} R⁻¹[j, c]·R⁻¹[l, c].
         let row_gram = (0..k)
             .map(|l| {
                 (j.max(l)..k)
-                    .map(|c| rinv(j, c) * rinv(l, c))
+                    .map(|c| rinv[j + c * k] * rinv[l + c * k])
                     .sum::<f64>()
                     .powi(2)
             })
