@@ -167,6 +167,18 @@ pub(crate) fn finish(
         }
         tracked_covariance.push(m);
     }
+    // The p-values, two at a time (each the same double as alone; see TQuantiles::p_value_pair).
+    let mut pending = coefficients.iter_mut().flat_map(|c| c.inference.iter_mut());
+    while let Some(first) = pending.next() {
+        match pending.next() {
+            Some(second) => {
+                let (p, q) = tq.p_value_pair((first.t_stat, first.df), (second.t_stat, second.df));
+                first.p_value = p;
+                second.p_value = q;
+            }
+            None => first.p_value = tq.p_value(first.t_stat, first.df),
+        }
+    }
     let has_effects = rows.is_some_and(|r| r.has_effects);
     let (r_squared, adj_r_squared) = r_squared(core, n, absorbed, has_effects);
     Ok(ModelFit {
@@ -217,7 +229,8 @@ fn inference(cov: Covariance, estimate: f64, var: f64, df: f64, tq: &mut TQuanti
         std_error,
         t_stat,
         df,
-        p_value: tq.p_value(t_stat, df),
+        // Filled in by `finish` once every choice's statistics are known, two at a time.
+        p_value: f64::NAN,
         ci_low: estimate - q * std_error,
         ci_high: estimate + q * std_error,
     }

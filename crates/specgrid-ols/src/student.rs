@@ -29,16 +29,52 @@ impl TQuantiles {
     /// df: the same value bit for bit (tested against `statrs`), at about half the cost, which
     /// matters when millions of models share a handful of df values.
     pub fn p_value(&mut self, t: f64, df: f64) -> f64 {
+        match self.prepare(t, df) {
+            Prepared::Done(p) => p,
+            Prepared::Fraction(f) => f.evaluate(),
+        }
+    }
+
+    /// [`Self::p_value`] for two statistics at once, each the same double as alone: the two
+    /// continued fractions advance in lockstep, so the processor overlaps their chains of
+    /// divisions (each step waits on the one before; the fraction was most of the per-model
+    /// finish, docs/performance.md, session 7).
+    pub fn p_value_pair(&mut self, first: (f64, f64), second: (f64, f64)) -> (f64, f64) {
+        match (
+            self.prepare(first.0, first.1),
+            self.prepare(second.0, second.1),
+        ) {
+            (Prepared::Fraction(a), Prepared::Fraction(b)) => {
+                let mut lanes = [a, b];
+                let mut done = [false; 2];
+                for m in 1..141 {
+                    for (lane, finished) in lanes.iter_mut().zip(done.iter_mut()) {
+                        if !*finished {
+                            *finished = lane.step(m);
+                        }
+                    }
+                    if done == [true; 2] {
+                        break;
+                    }
+                }
+                (lanes[0].value(), lanes[1].value())
+            }
+            (a, b) => (a.finish(), b.finish()),
+        }
+    }
+
+    /// The p-value of t at df, or the continued fraction that gives it.
+    fn prepare(&mut self, t: f64, df: f64) -> Prepared {
         if t.is_nan() || df.is_nan() || df <= 0.0 {
-            return f64::NAN;
+            return Prepared::Done(f64::NAN);
         }
         if t.is_infinite() {
-            return 0.0;
+            return Prepared::Done(0.0);
         }
         let x = (df / (df + t * t)).clamp(0.0, 1.0);
         // Where statrs takes its special branch (x at 0 or within 1e-15 of 1), ask statrs.
         if x == 0.0 || x > 1.0 - 1e-12 {
-            return beta_reg(df / 2.0, 0.5, x);
+            return Prepared::Done(beta_reg(df / 2.0, 0.5, x));
         }
         let prefix = match self.log_beta.iter().find(|(d, _)| *d == df) {
             Some(&(_, c)) => c,
@@ -49,7 +85,7 @@ impl TQuantiles {
                 c
             }
         };
-        incomplete_beta_with_prefix(df / 2.0, 0.5, x, prefix)
+        Prepared::Fraction(Fraction::start(df / 2.0, 0.5, x, prefix))
     }
 
     /// The upper (1 + level)/2 quantile of Student t with `df` degrees of freedom.
@@ -80,49 +116,114 @@ pub(crate) fn two_sided_p(t: f64, df: f64) -> f64 {
     beta_reg(df / 2.0, 0.5, x.clamp(0.0, 1.0))
 }
 
+/// A p-value found at once, or the continued fraction still to evaluate.
+enum Prepared {
+    Done(f64),
+    Fraction(Fraction),
+}
+
+impl Prepared {
+    /// The p-value, evaluating the fraction alone if there is one.
+    fn finish(self) -> f64 {
+        match self {
+            Prepared::Done(p) => p,
+            Prepared::Fraction(f) => f.evaluate(),
+        }
+    }
+}
+
+/// statrs' F64_PREC.
+const F64_PREC: f64 = 0.000_000_000_000_000_111_022_302_462_515_65;
+
 /// The regularised incomplete beta function I_x(a, b) for 0 < x < 1, given the prefix
 /// ln Γ(a + b) − ln Γ(a) − ln Γ(b): the continued fraction of Numerical Recipes (3rd ed.,
 /// sec. 6.4, `betacf`, modified Lentz) exactly as `statrs::function::beta::checked_beta_reg`
 /// 0.19 evaluates it (MIT licence), operation for operation, so the result is the same double.
-/// Only the prefix is hoisted out: statrs recomputes three log-gammas on every call.
-fn incomplete_beta_with_prefix(a: f64, b: f64, x: f64, prefix: f64) -> f64 {
-    let bt = (prefix + a * x.ln() + b * (1.0 - x).ln()).exp();
-    let symm_transform = x >= (a + 1.0) / (a + b + 2.0);
-    let eps = 0.000_000_000_000_000_111_022_302_462_515_65; // statrs' F64_PREC
-    let fpmin = f64::MIN_POSITIVE / eps;
-    let (a, b, x) = if symm_transform {
-        (b, a, 1.0 - x)
-    } else {
-        (a, b, x)
-    };
-    let qab = a + b;
-    let qap = a + 1.0;
-    let qam = a - 1.0;
-    let mut c = 1.0;
-    let mut d = 1.0 - qab * x / qap;
-    if d.abs() < fpmin {
-        d = fpmin;
-    }
-    d = 1.0 / d;
-    let mut h = d;
-    for m in 1..141 {
-        let m = f64::from(m);
-        let m2 = m * 2.0;
-        let mut aa = m * (b - m) * x / ((qam + m2) * (a + m2));
-        lentz_update(aa, fpmin, &mut c, &mut d);
-        h = h * d * c;
-        aa = -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2));
-        lentz_update(aa, fpmin, &mut c, &mut d);
-        let del = d * c;
-        h *= del;
-        if (del - 1.0).abs() <= eps {
-            break;
+/// Only the prefix is hoisted out: statrs recomputes three log-gammas on every call. Split into
+/// [`Fraction::start`], [`Fraction::step`] and [`Fraction::value`] so two fractions can
+/// advance side by side ([`TQuantiles::p_value_pair`]) doing the same operations as one alone.
+struct Fraction {
+    bt: f64,
+    symm_transform: bool,
+    a: f64,
+    b: f64,
+    x: f64,
+    qab: f64,
+    qap: f64,
+    qam: f64,
+    c: f64,
+    d: f64,
+    h: f64,
+}
+
+impl Fraction {
+    /// The fraction for I_x(a, b) before its first step.
+    fn start(a: f64, b: f64, x: f64, prefix: f64) -> Fraction {
+        let bt = (prefix + a * x.ln() + b * (1.0 - x).ln()).exp();
+        let symm_transform = x >= (a + 1.0) / (a + b + 2.0);
+        let fpmin = f64::MIN_POSITIVE / F64_PREC;
+        let (a, b, x) = if symm_transform {
+            (b, a, 1.0 - x)
+        } else {
+            (a, b, x)
+        };
+        let qab = a + b;
+        let qap = a + 1.0;
+        let qam = a - 1.0;
+        let c = 1.0;
+        let mut d = 1.0 - qab * x / qap;
+        if d.abs() < fpmin {
+            d = fpmin;
+        }
+        d = 1.0 / d;
+        Fraction {
+            bt,
+            symm_transform,
+            a,
+            b,
+            x,
+            qab,
+            qap,
+            qam,
+            c,
+            d,
+            h: d,
         }
     }
-    if symm_transform {
-        1.0 - bt * h / a
-    } else {
-        bt * h / a
+
+    /// Step `m` (1 to 140) of the fraction; true when it has converged (statrs' `break`).
+    fn step(&mut self, m: i32) -> bool {
+        let fpmin = f64::MIN_POSITIVE / F64_PREC;
+        let (a, b, x) = (self.a, self.b, self.x);
+        let m = f64::from(m);
+        let m2 = m * 2.0;
+        let mut aa = m * (b - m) * x / ((self.qam + m2) * (a + m2));
+        lentz_update(aa, fpmin, &mut self.c, &mut self.d);
+        self.h = self.h * self.d * self.c;
+        aa = -(a + m) * (self.qab + m) * x / ((a + m2) * (self.qap + m2));
+        lentz_update(aa, fpmin, &mut self.c, &mut self.d);
+        let del = self.d * self.c;
+        self.h *= del;
+        (del - 1.0).abs() <= F64_PREC
+    }
+
+    /// I_x(a, b) from the fraction as far as it went.
+    fn value(&self) -> f64 {
+        if self.symm_transform {
+            1.0 - self.bt * self.h / self.a
+        } else {
+            self.bt * self.h / self.a
+        }
+    }
+
+    /// Runs the fraction alone to convergence (or step 140) and returns its value.
+    fn evaluate(mut self) -> f64 {
+        for m in 1..141 {
+            if self.step(m) {
+                break;
+            }
+        }
+        self.value()
     }
 }
 
@@ -176,5 +277,37 @@ mod tests {
         }
         assert!(q.p_value(f64::NAN, 3.0).is_nan());
         assert_eq!(q.p_value(f64::INFINITY, 3.0), 0.0);
+    }
+
+    #[test]
+    fn paired_p_values_equal_single_ones_bit_for_bit() {
+        // Every pair of (t, df), special branches included (NaN, infinite t, x at 1), against
+        // the single evaluation, which the test above ties to statrs.
+        let mut q = TQuantiles::new(0.95);
+        let cases: Vec<(f64, f64)> = [1.0, 7.0, 143.0, 99_960.0]
+            .iter()
+            .flat_map(|&df| {
+                [
+                    0.0,
+                    1e-8,
+                    0.3,
+                    1.96,
+                    4.0,
+                    30.0,
+                    1e8,
+                    f64::NAN,
+                    f64::INFINITY,
+                ]
+                .map(|t| (t, df))
+            })
+            .collect();
+        for &first in &cases {
+            for &second in &cases {
+                let (a, b) = q.p_value_pair(first, second);
+                let (ra, rb) = (q.p_value(first.0, first.1), q.p_value(second.0, second.1));
+                assert_eq!(a.to_bits(), ra.to_bits(), "{first:?} beside {second:?}");
+                assert_eq!(b.to_bits(), rb.to_bits(), "{second:?} beside {first:?}");
+            }
+        }
     }
 }
