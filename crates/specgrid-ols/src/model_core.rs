@@ -2,7 +2,7 @@
 //! R⁻¹ (scaled coordinates), residual sum of squares and the checks that refuse a model.
 
 use crate::api::{FitOptions, ModelError, ModelSpec};
-use crate::small_qr::{condition_estimate, upper_inverse};
+use crate::small_qr::{condition_estimate, condition_scratch, upper_inverse};
 
 /// Per-model results that do not need a pass over the rows.
 #[derive(Debug, Clone)]
@@ -182,7 +182,7 @@ pub(crate) fn core_from_factor(
     }
     let mut rinv = vec![0.0; k * k];
     upper_inverse(parts.r, k, &mut rinv);
-    let mut tmp = vec![0.0; k * (2 * k + 3)];
+    let mut tmp = vec![0.0; condition_scratch(k)];
     let condition = condition_estimate(parts.r, &rinv, k, &mut tmp);
     if condition.is_nan() || condition > opts.condition_limit {
         return Err(ModelError::IllConditioned {

@@ -134,36 +134,43 @@ pub(crate) const CONDITION_ACCURACY: f64 = 1e-5;
 /// product by at most (1 + δ)², a relative error below 2δ.
 const SINGULAR_ACCURACY: f64 = CONDITION_ACCURACY / 2.0;
 
+/// Slots of scratch [`condition_estimate`] needs for a k × k factor: a Gram matrix and a work
+/// area for each of the two triangles.
+pub(crate) const fn condition_scratch(k: usize) -> usize {
+    2 * k * (2 * k + 3)
+}
+
 /// The 2-norm condition number σ_max/σ_min of the upper-triangular `r` (k × k), to a certified
-/// relative accuracy of [`CONDITION_ACCURACY`]: σ_max(R)·σ_max(R⁻¹), each by
-/// [`certified_largest_singular`]. Where a certificate fails, both values come from an SVD
-/// instead (faer), exact to rounding but several times as costly; it served 0.8% of 3,000 models
-/// of a real grid. `tmp` needs k(2k + 3) slots.
+/// relative accuracy of [`CONDITION_ACCURACY`]: σ_max(R)·σ_max(R⁻¹), each certified to
+/// [`SINGULAR_ACCURACY`] (see [`dominant_root_pair`] and [`certify`]). Where a certificate
+/// fails, both values come from an SVD instead (faer), exact to rounding but several times as
+/// costly; it served 0.8% of 3,000 models of a real grid. `tmp` needs
+/// [`condition_scratch`]`(k)` slots.
 pub(crate) fn condition_estimate(r: &[f64], rinv: &[f64], k: usize, tmp: &mut [f64]) -> f64 {
     if k == 0 {
         return 1.0;
     }
+    let (left, right) = tmp[..condition_scratch(k)].split_at_mut(k * (2 * k + 3));
+    let (gram_r, work_r) = left.split_at_mut(k * k);
+    let (gram_inv, work_inv) = right.split_at_mut(k * k);
+    upper_gram(r, k, gram_r);
+    upper_gram(rinv, k, gram_inv);
+    let (s_r, s_inv) = dominant_root_pair(
+        PowerStart::new(gram_r, k, work_r),
+        PowerStart::new(gram_inv, k, work_inv),
+    );
     match (
-        certified_largest_singular(r, k, tmp),
-        certified_largest_singular(rinv, k, tmp),
+        certify(gram_r, k, s_r, work_r),
+        certify(gram_inv, k, s_inv, work_inv),
     ) {
         (Some(smax), Some(inv_smin)) => smax * inv_smin,
         _ => exact_largest_singular(r, k) * exact_largest_singular(rinv, k),
     }
 }
 
-/// The largest singular value σ of the upper-triangular k × k `u`, certified to
-/// [`SINGULAR_ACCURACY`], or `None` when the certificate fails. `tmp` needs k(2k + 3) slots.
-///
-/// Power iteration on the explicit G = U'U gives s = √(x'Gx) ≤ σ. It starts from G's
-/// longest column (one step from the unit vector with the largest image), which cut the steps
-/// by a third on a real grid against a fixed start vector. Its stopping rule (a relative change
-/// under 1e-6) cannot tell a slow climb from convergence, and from a poor start it can settle
-/// near the second singular value (8% low on some models of a real grid). So s is certified:
-/// if (s(1 + δ))²·I − G has a Cholesky factor, every singular value of U is below s(1 + δ).
-fn certified_largest_singular(u: &[f64], k: usize, tmp: &mut [f64]) -> Option<f64> {
-    let (gram, work) = tmp[..k * (2 * k + 3)].split_at_mut(k * k);
-    // G[i, j] = Σ_{l ≤ min(i, j)} U[l, i]·U[l, j], both triangles (column-major).
+/// G = U'U of the upper-triangular k × k `u`: G[i, j] = Σ_{l ≤ min(i, j)} U[l, i]·U[l, j],
+/// both triangles (column-major).
+fn upper_gram(u: &[f64], k: usize, gram: &mut [f64]) {
     for j in 0..k {
         for i in j..k {
             let g: f64 = (0..=j).map(|l| u[l + i * k] * u[l + j * k]).sum();
@@ -171,57 +178,126 @@ fn certified_largest_singular(u: &[f64], k: usize, tmp: &mut [f64]) -> Option<f6
             gram[j + i * k] = g;
         }
     }
-    let s = gram_power(gram, k, work);
+}
+
+/// `s` as the largest singular value of the U with G = U'U, certified to
+/// [`SINGULAR_ACCURACY`], or `None` when the certificate fails; `work` needs k² slots.
+///
+/// The power iteration gives s = √(x'Gx) ≤ σ. It starts from G's longest column (one step
+/// from the unit vector with the largest image), which cut the steps by a third on a real grid
+/// against a fixed start vector. Its stopping rule (a relative change under 1e-6) cannot tell a
+/// slow climb from convergence, and from a poor start it can settle near the second singular
+/// value (8% low on some models of a real grid). So s is certified: if (s(1 + δ))²·I − G has a
+/// Cholesky factor, every singular value of U is below s(1 + δ).
+fn certify(gram: &[f64], k: usize, s: f64, work: &mut [f64]) -> Option<f64> {
     (s.is_finite()
         && s > 0.0
         && all_eigen_below(gram, k, (s * (1.0 + SINGULAR_ACCURACY)).powi(2), work))
     .then_some(s)
 }
 
-/// Power iteration for √λ_max of the symmetric k × k `gram` (column-major) from its longest
-/// column; `work` needs 3k slots. The entries are bounded (unit-norm columns, or the inverse of
-/// such a factor under the condition limit), so plain sums of squares cannot overflow.
-///
-/// Each step waits on the one before, so the step is arranged for a short chain: the product
-/// is k independent dot products, x'z and z'z are summed together in pairs, and z'z
-/// normalises the next x (no separate norm of x).
-fn gram_power(gram: &[f64], k: usize, work: &mut [f64]) -> f64 {
-    let (x, rest) = work[..3 * k].split_at_mut(k);
-    let z = &mut rest[..k];
-    let column = |j: usize| &gram[j * k..j * k + k];
-    let longest = (0..k)
-        .map(|j| (j, dot(column(j), column(j))))
-        .fold((0, -1.0), |best, c| if c.1 > best.1 { c } else { best })
-        .0;
-    x.copy_from_slice(column(longest));
-    let norm = dot(x, x).sqrt();
-    if norm == 0.0 || !norm.is_finite() {
-        return if norm == 0.0 { 0.0 } else { f64::INFINITY };
-    }
-    let inv = 1.0 / norm;
-    x.iter_mut().for_each(|v| *v *= inv);
-    let mut sigma = 0.0;
-    for _ in 0..40 {
-        // z = G x, entry i as the dot product of G's column i (G is symmetric) with x: k
-        // independent sums in registers, which the processor overlaps, where accumulating
-        // column by column into z went through memory at every step.
-        for (i, zi) in z.iter_mut().enumerate() {
-            *zi = dot(column(i), x);
+/// A power iteration for √λ_max of a symmetric k × k Gram matrix (column-major), started from
+/// its longest column, or its result when the start already decides it (a zero or non-finite
+/// column). The entries are bounded (unit-norm columns, or the inverse of such a factor under
+/// the condition limit), so plain sums of squares cannot overflow.
+enum PowerStart<'a> {
+    Running(Power<'a>),
+    Finished(f64),
+}
+
+/// A power iteration between steps: the unit vector x and the product buffer z.
+struct Power<'a> {
+    gram: &'a [f64],
+    k: usize,
+    x: &'a mut [f64],
+    z: &'a mut [f64],
+    sigma: f64,
+}
+
+impl<'a> PowerStart<'a> {
+    /// Starts on `gram`; `work` needs 2k slots.
+    fn new(gram: &'a [f64], k: usize, work: &'a mut [f64]) -> PowerStart<'a> {
+        let (x, rest) = work[..2 * k].split_at_mut(k);
+        let column = |j: usize| &gram[j * k..j * k + k];
+        let longest = (0..k)
+            .map(|j| (j, dot(column(j), column(j))))
+            .fold((0, -1.0), |best, c| if c.1 > best.1 { c } else { best })
+            .0;
+        x.copy_from_slice(column(longest));
+        let norm = dot(x, x).sqrt();
+        if norm == 0.0 || !norm.is_finite() {
+            return PowerStart::Finished(if norm == 0.0 { 0.0 } else { f64::INFINITY });
         }
-        let (xz, zz) = paired_dots(x, z);
+        let inv = 1.0 / norm;
+        x.iter_mut().for_each(|v| *v *= inv);
+        PowerStart::Running(Power {
+            gram,
+            k,
+            x,
+            z: rest,
+            sigma: 0.0,
+        })
+    }
+}
+
+impl Power<'_> {
+    /// One step; the result once the iteration has finished.
+    ///
+    /// Each step waits on the one before, so the step is arranged for a short chain: the
+    /// product is k independent dot products (G is symmetric: entry i is column i times x,
+    /// summed in registers, which the processor overlaps), x'z and z'z are summed together in
+    /// pairs, and z'z normalises the next x (no separate norm of x).
+    fn step(&mut self) -> Option<f64> {
+        let k = self.k;
+        for (i, zi) in self.z.iter_mut().enumerate() {
+            *zi = dot(&self.gram[i * k..i * k + k], self.x);
+        }
+        let (xz, zz) = paired_dots(self.x, self.z);
         let new_sigma = xz.max(0.0).sqrt();
         let norm = zz.sqrt();
         if norm == 0.0 || !norm.is_finite() {
-            return if norm == 0.0 { 0.0 } else { f64::INFINITY };
+            return Some(if norm == 0.0 { 0.0 } else { f64::INFINITY });
         }
         let inv = 1.0 / norm;
-        x.iter_mut().zip(z.iter()).for_each(|(a, b)| *a = b * inv);
-        if (new_sigma - sigma).abs() <= 1e-6 * new_sigma {
-            return new_sigma;
+        self.x
+            .iter_mut()
+            .zip(self.z.iter())
+            .for_each(|(a, b)| *a = b * inv);
+        if (new_sigma - self.sigma).abs() <= 1e-6 * new_sigma {
+            return Some(new_sigma);
         }
-        sigma = new_sigma;
+        self.sigma = new_sigma;
+        None
     }
-    sigma
+}
+
+/// Runs two power iterations side by side, at most 40 steps each (after which the last
+/// estimate stands): both chains of dependent sums and square roots are in flight at once, where
+/// one after the other the processor waited on each. Each lane does exactly the operations it
+/// would alone, so each result is the same double.
+fn dominant_root_pair(first: PowerStart<'_>, second: PowerStart<'_>) -> (f64, f64) {
+    let mut lanes = [first, second];
+    let mut results = lanes.each_ref().map(|lane| match lane {
+        PowerStart::Finished(v) => Some(*v),
+        PowerStart::Running(_) => None,
+    });
+    for _ in 0..40 {
+        for (lane, result) in lanes.iter_mut().zip(results.iter_mut()) {
+            if let (PowerStart::Running(power), None) = (lane, &*result) {
+                *result = power.step();
+            }
+        }
+        if results.iter().all(Option::is_some) {
+            break;
+        }
+    }
+    let finish = |lane: &PowerStart<'_>, result: Option<f64>| {
+        result.unwrap_or(match lane {
+            PowerStart::Running(power) => power.sigma,
+            PowerStart::Finished(v) => *v,
+        })
+    };
+    (finish(&lanes[0], results[0]), finish(&lanes[1], results[1]))
 }
 
 /// (x'z, z'z), each summed in two interleaved halves (even and odd entries), the halves held in
@@ -367,7 +443,7 @@ mod tests {
         let mut inv = [0.0; 4];
         upper_inverse(&r, 2, &mut inv);
         assert_eq!(inv, [0.5, 0.0, 0.0, 2.0]);
-        let mut tmp = [0.0; 14];
+        let mut tmp = [0.0; condition_scratch(2)];
         let c = condition_estimate(&r, &inv, 2, &mut tmp);
         assert!((c - 4.0).abs() < 1e-9, "{c}");
     }
@@ -438,7 +514,7 @@ mod tests {
         let r = triangle(size);
         let mut inv = vec![0.0; size * size];
         upper_inverse(&r, size, &mut inv);
-        let mut tmp = vec![0.0; size * (2 * size + 3)];
+        let mut tmp = vec![0.0; condition_scratch(size)];
         let estimate = condition_estimate(&r, &inv, size, &mut tmp);
         let m = faer::Mat::<f64>::from_fn(size, size, |i, j| r[i + j * size]);
         let s = m.singular_values().expect("svd");
@@ -497,7 +573,7 @@ mod tests {
         }
         let mut inv = vec![0.0; k * k];
         upper_inverse(&r, k, &mut inv);
-        let mut tmp = vec![0.0; k * (2 * k + 3)];
+        let mut tmp = vec![0.0; condition_scratch(k)];
         // Reference: numpy 2.4.6, s = numpy.linalg.svd(R, compute_uv=False); s[0] / s[-1].
         let reference = 2.96722683707312;
         let certified = condition_estimate(&r, &inv, k, &mut tmp);
