@@ -243,11 +243,24 @@ pub fn write_csv(frame: &mut DataFrame, path: &Path) -> Result<(), Failure> {
         .map_err(|e| Failure::Output(format!("{}: {e}", path.display())))
 }
 
+/// zstd level of the results' Parquet files. Level 1 rather than the writer's default (3): on
+/// the 2,048,200-model grid it compressed in about half the time (zstd's share of a run's
+/// samples 102 → 58) into a file no larger (269.8 MB against 270.8 MB; the columns are mostly
+/// dictionary codes and repeated numbers, where the faster level loses nothing).
+const PARQUET_ZSTD_LEVEL: i32 = 1;
+
+/// The compression every results Parquet file is written with (zstd at
+/// [`PARQUET_ZSTD_LEVEL`]; the writer's default level should that level ever be refused).
+pub fn parquet_compression() -> ParquetCompression {
+    ParquetCompression::Zstd(polars_parquet::write::ZstdLevel::try_new(PARQUET_ZSTD_LEVEL).ok())
+}
+
 /// Writes a frame as Parquet.
 pub fn write_parquet(frame: &mut DataFrame, path: &Path) -> Result<(), Failure> {
     let file =
         File::create(path).map_err(|e| Failure::Output(format!("{}: {e}", path.display())))?;
     ParquetWriter::new(file)
+        .with_compression(parquet_compression())
         .finish(frame)
         .map(|_| ())
         .map_err(|e| Failure::Output(format!("{}: {e}", path.display())))

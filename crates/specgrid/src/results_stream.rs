@@ -72,6 +72,7 @@ impl ChunkWriter {
                 let file = File::create(path).map_err(|e| failed(path, e))?;
                 self.parquet = Some(
                     ParquetWriter::new(file)
+                        .with_compression(crate::results::parquet_compression())
                         .batched(frame.schema())
                         .map_err(|e| failed(path, e))?,
                 );
