@@ -50,45 +50,78 @@ pub(crate) fn nice_ticks(lo: f64, hi: f64, n: usize) -> Vec<f64> {
     (start..=end).map(|i| i as f64 * step).collect()
 }
 
-/// Every estimated model under the first covariance choice, sorted by effect (ties by id).
-/// Computed once per report and shared by the SVG and TikZ figures (at millions of models the
-/// sort is a second or two).
-pub(crate) fn points(report: &Report) -> &[Point] {
-    report.curve.get_or_init(|| sorted_points(report))
+/// The curve's points in drawing order, with each point's option numbers beside them.
+#[derive(Debug, Clone)]
+pub(crate) struct Curve {
+    /// Every estimated model under the first covariance choice, sorted by effect (ties by id).
+    pub(crate) points: Vec<Point>,
+    /// Point i's option number in each dimension at `i·dims .. (i + 1)·dims`, gathered while
+    /// the points are made: the figures' groups then read them in order, where reading each
+    /// model's entry in sorted order cost cache misses twice over (once per figure).
+    choices: Vec<u32>,
+    /// Dimensions per point in `choices`.
+    dims: usize,
 }
 
-fn sorted_points(report: &Report) -> Vec<Point> {
+impl Curve {
+    /// The option numbers of point `i`, one per dimension.
+    fn choices_of(&self, i: usize) -> &[u32] {
+        &self.choices[i * self.dims..(i + 1) * self.dims]
+    }
+}
+
+/// The curve, computed once per report and shared by the SVG and TikZ figures (at millions of
+/// models the sort is a second or two).
+pub(crate) fn curve(report: &Report) -> &Curve {
+    report.curve.get_or_init(|| sorted_curve(report))
+}
+
+/// Every estimated model under the first covariance choice, sorted by effect (ties by id).
+pub(crate) fn points(report: &Report) -> &[Point] {
+    &curve(report).points
+}
+
+fn sorted_curve(report: &Report) -> Curve {
     let input = &report.input;
     let level = input.confidence_level;
+    let dims = input.dimensions.len();
+    let mut points = Vec::with_capacity(report.curve_order.len());
+    let mut choices = Vec::with_capacity(report.curve_order.len() * dims);
     // The summary already sorted these models (those with a finite estimate under the first
     // choice) by estimate, ties by id; the curve draws them in that order.
-    report
-        .curve_order
-        .iter()
-        .filter_map(|&(_, i)| {
-            let f = input.models[i].effects[0]?;
-            let half = f.std_error.filter(|s| s.is_finite() && *s > 0.0).map(|se| {
-                let q = crate::stats::interval_multiplier(level, f.df);
-                q * se
-            });
-            Some(Point {
-                estimate: f.estimate,
-                low: half.map(|h| f.estimate - h),
-                high: half.map(|h| f.estimate + h),
-                significant: significance(&f, input.significance_level),
-                model: i,
-            })
-        })
-        .collect()
+    for &(_, i) in &report.curve_order {
+        let model = &input.models[i];
+        let Some(f) = model.effects[0] else { continue };
+        let half = f.std_error.filter(|s| s.is_finite() && *s > 0.0).map(|se| {
+            let q = crate::stats::interval_multiplier(level, f.df);
+            q * se
+        });
+        points.push(Point {
+            estimate: f.estimate,
+            low: half.map(|h| f.estimate - h),
+            high: half.map(|h| f.estimate + h),
+            significant: significance(&f, input.significance_level),
+            model: i,
+        });
+        // Option numbers are below the grid's model limit, far inside u32 (validated input:
+        // one per dimension).
+        choices.extend(model.choices.iter().map(|&c| c as u32));
+    }
+    Curve {
+        points,
+        choices,
+        dims,
+    }
 }
 
 /// At most `max_marks` groups of neighbouring sorted models (one model per group when few).
 pub(crate) fn group(
     report: &Report,
-    pts: &[Point],
+    curve: &Curve,
     baseline: Option<usize>,
     max_marks: usize,
 ) -> Vec<Mark> {
+    let pts = &curve.points;
     let n = pts.len();
     let groups = n.min(max_marks).max(1);
     let panels: Vec<_> = report.input.dimensions.iter().map(|d| d.panel()).collect();
@@ -101,10 +134,12 @@ pub(crate) fn group(
             }
             let mut option_shares: Vec<Vec<f64>> =
                 panels.iter().map(|p| vec![0.0; p.labels.len()]).collect();
-            for p in members {
-                for (d, &c) in report.input.models[p.model].choices.iter().enumerate() {
-                    for row in panels[d].row_indices(c) {
-                        option_shares[d][row] += 1.0 / members.len() as f64;
+            // Every member adds the same share (computed once: the same double each time).
+            let share = 1.0 / members.len() as f64;
+            for i in a..b {
+                for (d, &c) in curve.choices_of(i).iter().enumerate() {
+                    for row in panels[d].row_indices(c as usize) {
+                        option_shares[d][row] += share;
                     }
                 }
             }

@@ -101,7 +101,7 @@ pub struct Report {
     /// model index): sorted once for the summary, drawn in this order by the curve.
     curve_order: Vec<(f64, usize)>,
     /// The specification curve's sorted points, made by the first figure that needs them.
-    curve: std::sync::OnceLock<Vec<curve::Point>>,
+    curve: std::sync::OnceLock<curve::Curve>,
 }
 
 /// File names [`Report::write_all`] writes, in order.
