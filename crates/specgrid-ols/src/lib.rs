@@ -7,6 +7,7 @@ mod dense;
 mod finish;
 mod independent;
 pub mod inference;
+mod lockstep;
 mod model_core;
 mod moments;
 mod plan;

@@ -5,6 +5,8 @@
 //! model order" rule, and these matrices are tiny (at most p + m rows, k + 1 columns), so the
 //! kernels run in caller-owned workspaces without allocating.
 
+use crate::lockstep::advance_pair;
+
 /// Reusable buffers for [`factor_in_order`]; grow-only, so a batch allocates once.
 #[derive(Debug, Default)]
 pub(crate) struct QrWork {
@@ -156,8 +158,8 @@ pub(crate) fn condition_estimate(r: &[f64], rinv: &[f64], k: usize, tmp: &mut [f
     upper_gram(r, k, gram_r);
     upper_gram(rinv, k, gram_inv);
     let (s_r, s_inv) = dominant_root_pair(
-        PowerStart::new(gram_r, k, work_r),
-        PowerStart::new(gram_inv, k, work_inv),
+        Power::new(gram_r, k, work_r),
+        Power::new(gram_inv, k, work_inv),
     );
     match (
         certify(gram_r, k, s_r, work_r),
@@ -197,27 +199,26 @@ fn certify(gram: &[f64], k: usize, s: f64, work: &mut [f64]) -> Option<f64> {
 }
 
 /// A power iteration for √λ_max of a symmetric k × k Gram matrix (column-major), started from
-/// its longest column, or its result when the start already decides it (a zero or non-finite
-/// column). The entries are bounded (unit-norm columns, or the inverse of such a factor under
-/// the condition limit), so plain sums of squares cannot overflow.
-enum PowerStart<'a> {
-    Running(Power<'a>),
-    Finished(f64),
-}
-
-/// A power iteration between steps: the unit vector x and the product buffer z.
+/// its longest column. The entries are bounded (unit-norm columns, or the inverse of such a
+/// factor under the condition limit), so plain sums of squares cannot overflow.
 struct Power<'a> {
     gram: &'a [f64],
     k: usize,
+    /// The current unit vector.
     x: &'a mut [f64],
+    /// The product buffer.
     z: &'a mut [f64],
+    /// The last estimate.
     sigma: f64,
+    /// The result, once the iteration has finished (at the start already for a zero or
+    /// non-finite longest column).
+    result: Option<f64>,
 }
 
-impl<'a> PowerStart<'a> {
+impl<'a> Power<'a> {
     /// Starts on `gram`; `work` needs 2k slots.
-    fn new(gram: &'a [f64], k: usize, work: &'a mut [f64]) -> PowerStart<'a> {
-        let (x, rest) = work[..2 * k].split_at_mut(k);
+    fn new(gram: &'a [f64], k: usize, work: &'a mut [f64]) -> Power<'a> {
+        let (x, z) = work[..2 * k].split_at_mut(k);
         let column = |j: usize| &gram[j * k..j * k + k];
         let longest = (0..k)
             .map(|j| (j, dot(column(j), column(j))))
@@ -225,29 +226,30 @@ impl<'a> PowerStart<'a> {
             .0;
         x.copy_from_slice(column(longest));
         let norm = dot(x, x).sqrt();
-        if norm == 0.0 || !norm.is_finite() {
-            return PowerStart::Finished(if norm == 0.0 { 0.0 } else { f64::INFINITY });
-        }
-        let inv = 1.0 / norm;
-        x.iter_mut().for_each(|v| *v *= inv);
-        PowerStart::Running(Power {
+        let result = if norm == 0.0 || !norm.is_finite() {
+            Some(if norm == 0.0 { 0.0 } else { f64::INFINITY })
+        } else {
+            let inv = 1.0 / norm;
+            x.iter_mut().for_each(|v| *v *= inv);
+            None
+        };
+        Power {
             gram,
             k,
             x,
-            z: rest,
+            z,
             sigma: 0.0,
-        })
+            result,
+        }
     }
-}
 
-impl Power<'_> {
-    /// One step; the result once the iteration has finished.
+    /// One step; true once the iteration has finished (its result is then set).
     ///
     /// Each step waits on the one before, so the step is arranged for a short chain: the
     /// product is k independent dot products (G is symmetric: entry i is column i times x,
     /// summed in registers, which the processor overlaps), x'z and z'z are summed together in
     /// pairs, and z'z normalises the next x (no separate norm of x).
-    fn step(&mut self) -> Option<f64> {
+    fn step(&mut self) -> bool {
         let k = self.k;
         for (i, zi) in self.z.iter_mut().enumerate() {
             *zi = dot(&self.gram[i * k..i * k + k], self.x);
@@ -256,7 +258,8 @@ impl Power<'_> {
         let new_sigma = xz.max(0.0).sqrt();
         let norm = zz.sqrt();
         if norm == 0.0 || !norm.is_finite() {
-            return Some(if norm == 0.0 { 0.0 } else { f64::INFINITY });
+            self.result = Some(if norm == 0.0 { 0.0 } else { f64::INFINITY });
+            return true;
         }
         let inv = 1.0 / norm;
         self.x
@@ -264,40 +267,27 @@ impl Power<'_> {
             .zip(self.z.iter())
             .for_each(|(a, b)| *a = b * inv);
         if (new_sigma - self.sigma).abs() <= 1e-6 * new_sigma {
-            return Some(new_sigma);
+            self.result = Some(new_sigma);
+            return true;
         }
         self.sigma = new_sigma;
-        None
+        false
+    }
+
+    /// The result, or the last estimate when the steps ran out.
+    fn value(&self) -> f64 {
+        self.result.unwrap_or(self.sigma)
     }
 }
 
-/// Runs two power iterations side by side, at most 40 steps each (after which the last
-/// estimate stands): both chains of dependent sums and square roots are in flight at once, where
-/// one after the other the processor waited on each. Each lane does exactly the operations it
-/// would alone, so each result is the same double.
-fn dominant_root_pair(first: PowerStart<'_>, second: PowerStart<'_>) -> (f64, f64) {
+/// Runs two power iterations side by side ([`advance_pair`]), at most 40 steps each (after
+/// which the last estimate stands): the square roots and sums of both chains are in flight at
+/// once, and each result is the same double as alone.
+fn dominant_root_pair(first: Power<'_>, second: Power<'_>) -> (f64, f64) {
     let mut lanes = [first, second];
-    let mut results = lanes.each_ref().map(|lane| match lane {
-        PowerStart::Finished(v) => Some(*v),
-        PowerStart::Running(_) => None,
-    });
-    for _ in 0..40 {
-        for (lane, result) in lanes.iter_mut().zip(results.iter_mut()) {
-            if let (PowerStart::Running(power), None) = (lane, &*result) {
-                *result = power.step();
-            }
-        }
-        if results.iter().all(Option::is_some) {
-            break;
-        }
-    }
-    let finish = |lane: &PowerStart<'_>, result: Option<f64>| {
-        result.unwrap_or(match lane {
-            PowerStart::Running(power) => power.sigma,
-            PowerStart::Finished(v) => *v,
-        })
-    };
-    (finish(&lanes[0], results[0]), finish(&lanes[1], results[1]))
+    let finished = lanes.each_ref().map(|p| p.result.is_some());
+    advance_pair(&mut lanes, finished, 0..40, |power, _| power.step());
+    (lanes[0].value(), lanes[1].value())
 }
 
 /// (x'z, z'z), each summed in two interleaved halves (even and odd entries), the halves held in

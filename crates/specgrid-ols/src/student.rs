@@ -4,6 +4,8 @@ use statrs::distribution::{ContinuousCDF, StudentsT};
 use statrs::function::beta::beta_reg;
 use statrs::function::gamma::ln_gamma;
 
+use crate::lockstep::advance_pair;
+
 /// Caches t quantiles, and the log-beta prefix of the p-value, by degrees of freedom (a call
 /// sees only a few distinct values).
 #[derive(Debug)]
@@ -46,17 +48,7 @@ impl TQuantiles {
         ) {
             (Prepared::Fraction(a), Prepared::Fraction(b)) => {
                 let mut lanes = [a, b];
-                let mut done = [false; 2];
-                for m in 1..141 {
-                    for (lane, finished) in lanes.iter_mut().zip(done.iter_mut()) {
-                        if !*finished {
-                            *finished = lane.step(m);
-                        }
-                    }
-                    if done == [true; 2] {
-                        break;
-                    }
-                }
+                advance_pair(&mut lanes, [false; 2], STEPS, Fraction::step);
                 (lanes[0].value(), lanes[1].value())
             }
             (a, b) => (a.finish(), b.finish()),
@@ -132,6 +124,9 @@ impl Prepared {
     }
 }
 
+/// The fraction's step numbers (statrs stops after step 140 whether or not it converged).
+const STEPS: std::ops::Range<i32> = 1..141;
+
 /// statrs' F64_PREC.
 const F64_PREC: f64 = 0.000_000_000_000_000_111_022_302_462_515_65;
 
@@ -191,7 +186,8 @@ impl Fraction {
         }
     }
 
-    /// Step `m` (1 to 140) of the fraction; true when it has converged (statrs' `break`).
+    /// Step `m` (one of [`STEPS`]) of the fraction; true when it has converged (statrs'
+    /// `break`).
     fn step(&mut self, m: i32) -> bool {
         let fpmin = f64::MIN_POSITIVE / F64_PREC;
         let (a, b, x) = (self.a, self.b, self.x);
@@ -216,9 +212,9 @@ impl Fraction {
         }
     }
 
-    /// Runs the fraction alone to convergence (or step 140) and returns its value.
+    /// Runs the fraction alone to convergence (or its last step) and returns its value.
     fn evaluate(mut self) -> f64 {
-        for m in 1..141 {
+        for m in STEPS {
             if self.step(m) {
                 break;
             }
