@@ -136,10 +136,17 @@ pub(crate) const CONDITION_ACCURACY: f64 = 1e-5;
 /// product by at most (1 + δ)², a relative error below 2δ.
 const SINGULAR_ACCURACY: f64 = CONDITION_ACCURACY / 2.0;
 
-/// Slots of scratch [`condition_estimate`] needs for a k × k factor: a Gram matrix and a work
-/// area for each of the two triangles.
+/// Slots of scratch [`condition_estimate`] needs for a k × k factor: [`triangle_scratch`] for
+/// each of the two triangles.
 pub(crate) const fn condition_scratch(k: usize) -> usize {
-    2 * k * (2 * k + 3)
+    2 * triangle_scratch(k)
+}
+
+/// Scratch for one triangle: its Gram matrix (k²) and a work area that serves the power
+/// iteration (2k) and then the certificate's Cholesky factor (k²).
+const fn triangle_scratch(k: usize) -> usize {
+    let work = if 2 * k > k * k { 2 * k } else { k * k };
+    k * k + work
 }
 
 /// The 2-norm condition number σ_max/σ_min of the upper-triangular `r` (k × k), to a certified
@@ -152,7 +159,7 @@ pub(crate) fn condition_estimate(r: &[f64], rinv: &[f64], k: usize, tmp: &mut [f
     if k == 0 {
         return 1.0;
     }
-    let (left, right) = tmp[..condition_scratch(k)].split_at_mut(k * (2 * k + 3));
+    let (left, right) = tmp[..condition_scratch(k)].split_at_mut(triangle_scratch(k));
     let (gram_r, work_r) = left.split_at_mut(k * k);
     let (gram_inv, work_inv) = right.split_at_mut(k * k);
     upper_gram(r, k, gram_r);

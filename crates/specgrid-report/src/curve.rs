@@ -4,8 +4,8 @@
 use crate::aggregate::significance;
 use crate::Report;
 
-/// One model as drawn: estimate, band, significance, and its position in the input (for its
-/// choices).
+/// One model as drawn: estimate, band, significance, and its position in the input (to mark
+/// the baseline); its option numbers are in [`Curve`].
 #[derive(Debug, Clone)]
 pub(crate) struct Point {
     pub(crate) estimate: f64,
@@ -74,11 +74,6 @@ impl Curve {
 /// models the sort is a second or two).
 pub(crate) fn curve(report: &Report) -> &Curve {
     report.curve.get_or_init(|| sorted_curve(report))
-}
-
-/// Every estimated model under the first covariance choice, sorted by effect (ties by id).
-pub(crate) fn points(report: &Report) -> &[Point] {
-    &curve(report).points
 }
 
 fn sorted_curve(report: &Report) -> Curve {

@@ -2,7 +2,7 @@
 //! into a paper (needs `\usepackage{tikz}`; no PDF or image files).
 
 use crate::aggregate::baseline_index;
-use crate::curve::{curve, group, nice_ticks, points};
+use crate::curve::{curve, group, nice_ticks};
 use crate::text::{count, num as plain_num, pct, tex_escape as esc};
 
 /// A number for LaTeX text: a leading minus becomes a math minus sign.
@@ -70,12 +70,13 @@ pub fn render(report: &Report) -> String {
 }
 
 fn figure(report: &Report) -> String {
-    let pts = points(report);
+    let drawn = curve(report);
+    let pts = &drawn.points;
     if pts.is_empty() {
         return String::new();
     }
     let baseline = baseline_index(&report.input).map(|(i, _)| i);
-    let marks = group(report, curve(report), baseline, TEX_MARKS);
+    let marks = group(report, drawn, baseline, TEX_MARKS);
     let lo = pts
         .iter()
         .map(|p| p.low.unwrap_or(p.estimate))

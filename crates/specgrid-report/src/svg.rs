@@ -5,7 +5,7 @@
 //! distinct for the common forms of colour blindness.
 
 use crate::aggregate::baseline_index;
-use crate::curve::{curve, group, nice_ticks, points, Mark};
+use crate::curve::{curve, group, nice_ticks, Mark};
 use crate::text::{html_escape as esc, num};
 use crate::Report;
 
@@ -36,12 +36,13 @@ impl Axis {
 /// The specification curve and, beneath it, the panel of options each model took.
 pub fn spec_curve(report: &Report) -> String {
     let input = &report.input;
-    let pts = points(report);
+    let drawn = curve(report);
+    let pts = &drawn.points;
     if pts.is_empty() {
         return "<p>No model has an estimate, so there is no curve to draw.</p>".into();
     }
     let baseline = baseline_index(input).map(|(i, _)| i);
-    let marks = group(report, curve(report), baseline, MAX_MARKS);
+    let marks = group(report, drawn, baseline, MAX_MARKS);
     let grouped = pts.len() > MAX_MARKS;
 
     let curve_top = 20.0;
