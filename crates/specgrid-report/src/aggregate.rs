@@ -6,7 +6,8 @@ use std::collections::HashMap;
 use rayon::prelude::*;
 
 use crate::effect::{Effect, Scale};
-use crate::input::{ModelEntry, ModelStatus, ReportInput};
+use crate::input::ReportInput;
+use crate::models::ModelRef;
 use crate::stats::{
     mean, median, median_in_place, quantile_sorted, standard_normal_cdf, two_sided_p,
 };
@@ -36,33 +37,35 @@ pub fn validate(input: &ReportInput) -> Result<(), ReportError> {
             input.significance_level
         )));
     }
-    for m in &input.models {
-        if m.choices.len() != input.dimensions.len() {
-            return Err(ReportError::Input(format!(
-                "model {} has {} choices for {} decisions",
-                m.model_id,
-                m.choices.len(),
-                input.dimensions.len()
-            )));
-        }
-        for (c, d) in m.choices.iter().zip(&input.dimensions) {
-            if *c >= d.options.len() {
+    let models = &input.models;
+    if models.is_empty() {
+        return Ok(());
+    }
+    if models.dims() != input.dimensions.len() {
+        return Err(ReportError::Input(format!(
+            "the models have {} choices each for {} decisions",
+            models.dims(),
+            input.dimensions.len()
+        )));
+    }
+    if models.errors() != input.error_labels.len() {
+        return Err(ReportError::Input(format!(
+            "the models have effects for {} covariance choices each, the report has {}",
+            models.errors(),
+            input.error_labels.len()
+        )));
+    }
+    for m in models.iter() {
+        for (&c, d) in m.choices().iter().zip(&input.dimensions) {
+            if c as usize >= d.options.len() {
                 return Err(ReportError::Input(format!(
                     "model {} takes option {} on `{}`, which has {} options",
-                    m.model_id,
+                    m.id(),
                     c,
                     d.name,
                     d.options.len()
                 )));
             }
-        }
-        if m.effects.len() != input.error_labels.len() {
-            return Err(ReportError::Input(format!(
-                "model {} has effects for {} covariance choices, the report has {}",
-                m.model_id,
-                m.effects.len(),
-                input.error_labels.len()
-            )));
         }
     }
     Ok(())
@@ -81,11 +84,7 @@ pub(crate) fn summarize_with_order(
 ) -> Result<(Summary, Vec<(f64, usize)>), ReportError> {
     validate(input)?;
     let baseline_index = baseline_index(input);
-    let estimated = input
-        .models
-        .iter()
-        .filter(|m| m.effects.iter().any(Option::is_some))
-        .count();
+    let estimated = input.models.iter().filter(|m| m.has_any_effect()).count();
     // The aggregates read the same models independently; at millions of models each is a few
     // seconds, so they run side by side on the rayon threads (the result does not depend on it).
     let (with_orders, (decisions, diagnostics)) = rayon::join(
@@ -115,11 +114,7 @@ pub(crate) fn summarize_with_order(
         models: ModelCounts {
             planned: input.models.len(),
             estimated,
-            failed: input
-                .models
-                .iter()
-                .filter(|m| matches!(m.status, ModelStatus::Failed(_)))
-                .count(),
+            failed: input.models.failed(),
         },
         baseline: baseline_info(input, baseline_index),
         by_errors,
@@ -134,12 +129,15 @@ pub(crate) fn summarize_with_order(
 /// Index of the baseline model and how it was chosen: the study's named model if it has an
 /// estimate, else the model taking the first option everywhere, else the first estimated model.
 pub fn baseline_index(input: &ReportInput) -> Option<(usize, &'static str)> {
-    let has = |m: &ModelEntry| m.effects.first().is_some_and(Option::is_some);
+    if input.error_labels.is_empty() {
+        return None;
+    }
+    let has = |m: &ModelRef<'_>| input.models.estimate(m.index(), 0).is_some();
     if let Some(id) = &input.baseline_model_id {
         if let Some(i) = input
             .models
             .iter()
-            .position(|m| &m.model_id == id && has(m))
+            .position(|m| m.id() == id.as_str() && has(&m))
         {
             return Some((i, "named by the study"));
         }
@@ -147,25 +145,25 @@ pub fn baseline_index(input: &ReportInput) -> Option<(usize, &'static str)> {
     if let Some(i) = input
         .models
         .iter()
-        .position(|m| has(m) && m.choices.iter().all(|&c| c == 0))
+        .position(|m| has(&m) && m.choices().iter().all(|&c| c == 0))
     {
         return Some((i, "first option on every decision"));
     }
     input
         .models
         .iter()
-        .position(has)
+        .position(|m| has(&m))
         .map(|i| (i, "first model"))
 }
 
 fn baseline_info(input: &ReportInput, index: Option<(usize, &'static str)>) -> Baseline {
     match index {
         Some((i, how)) => {
-            let m = &input.models[i];
+            let m = input.models.get(i);
             Baseline {
-                model_id: Some(m.model_id.clone()),
+                model_id: Some(m.id().to_string()),
                 chosen_as: how,
-                choices: choices_of(input, m),
+                choices: choices_of(input, &m),
             }
         }
         None => Baseline {
@@ -177,14 +175,14 @@ fn baseline_info(input: &ReportInput, index: Option<(usize, &'static str)>) -> B
 }
 
 /// The (dimension, option) names of a model's choices.
-pub fn choices_of(input: &ReportInput, m: &ModelEntry) -> Vec<Choice> {
+pub fn choices_of(input: &ReportInput, m: &ModelRef<'_>) -> Vec<Choice> {
     input
         .dimensions
         .iter()
-        .zip(&m.choices)
+        .zip(m.choices())
         .map(|(d, &c)| Choice {
             dimension: d.name.clone(),
-            option: d.options[c].clone(),
+            option: d.options[c as usize].clone(),
         })
         .collect()
 }
@@ -209,26 +207,24 @@ fn error_summary(
 ) -> (ErrorSummary, Vec<(f64, usize)>) {
     let alpha = input.significance_level;
     // (estimate, model index), sorted by estimate then id for deterministic ties.
-    let mut sorted: Vec<(f64, usize)> = input
-        .models
-        .iter()
-        .enumerate()
-        .filter_map(|(i, m)| m.effects[e].map(|f| (f.estimate, i)))
+    let models = &input.models;
+    let mut sorted: Vec<(f64, usize)> = (0..models.len())
+        .filter_map(|i| models.estimate(i, e).map(|v| (v, i)))
         .filter(|(v, _)| v.is_finite())
         .collect();
     sorted.sort_by(|a, b| {
         a.0.total_cmp(&b.0)
-            .then_with(|| input.models[a.1].model_id.cmp(&input.models[b.1].model_id))
+            .then_with(|| models.id(a.1).cmp(models.id(b.1)))
     });
     let n = sorted.len();
     let values: Vec<f64> = sorted.iter().map(|p| p.0).collect();
     let share = |k: usize| (n > 0).then(|| k as f64 / n as f64);
     let at = |p: &(f64, usize)| ValueAt {
         value: p.0,
-        model_id: input.models[p.1].model_id.clone(),
+        model_id: models.id(p.1).to_string(),
     };
 
-    let base = baseline.and_then(|b| input.models[b].effects[e].map(|f| (b, f)));
+    let base = baseline.and_then(|b| models.effect(b, e).map(|f| (b, f)));
     let baseline_rank = base.and_then(|(b, _)| sorted.iter().position(|p| p.1 == b).map(|r| r + 1));
     let base_sign = base.map(|(_, f)| sign(f.estimate));
     let same_sign = base_sign.map(|s| values.iter().filter(|v| sign(**v) == s).count());
@@ -245,7 +241,7 @@ fn error_summary(
     // (P(N(0,1) < −b/se), model index) of the models with a usable standard error.
     let mut usable: Vec<(f64, usize)> = Vec::new();
     for &(_, i) in &sorted {
-        let f = input.models[i].effects[e].unwrap_or_else(unreachable_effect);
+        let f = models.effect(i, e).unwrap_or_else(unreachable_effect);
         match significance(&f, alpha) {
             Some(true) if f.estimate > 0.0 => sig_pos += 1,
             Some(true) => sig_neg += 1,
@@ -317,21 +313,21 @@ fn extreme_bounds(
     Some(ExtremeBounds {
         lower: ValueAt {
             value: lo.0,
-            model_id: input.models[lo.1].model_id.clone(),
+            model_id: input.models.id(lo.1).to_string(),
         },
         upper: ValueAt {
             value: hi.0,
-            model_id: input.models[hi.1].model_id.clone(),
+            model_id: input.models.id(hi.1).to_string(),
         },
         same_sign: (lo.0 > 0.0 && hi.0 > 0.0) || (lo.0 < 0.0 && hi.0 < 0.0),
     })
 }
 
 /// Gaussian log-likelihood at the OLS fit: −n/2 · (ln(2π·RSS/n) + 1), with RSS = s²·(n − k).
-fn log_likelihood(m: &ModelEntry) -> Option<f64> {
-    let n = m.n_obs? as f64;
-    let k = m.n_params? as f64;
-    let s = m.resid_sd?;
+fn log_likelihood(m: &ModelRef<'_>) -> Option<f64> {
+    let n = m.n_obs()? as f64;
+    let k = m.n_params()? as f64;
+    let s = m.resid_sd()?;
     let rss = s * s * (n - k);
     (rss > 0.0 && n > 0.0).then(|| -0.5 * n * ((2.0 * std::f64::consts::PI * rss / n).ln() + 1.0))
 }
@@ -342,11 +338,11 @@ fn cdf_zero(input: &ReportInput, usable: Vec<(f64, usize)>) -> Option<CdfZero> {
     if usable.is_empty() {
         return None;
     }
-    let models: Vec<&ModelEntry> = usable.iter().map(|(_, i)| &input.models[*i]).collect();
-    let logl: Option<Vec<f64>> = models.iter().map(|m| log_likelihood(m)).collect();
+    let models: Vec<ModelRef<'_>> = usable.iter().map(|(_, i)| input.models.get(*i)).collect();
+    let logl: Option<Vec<f64>> = models.iter().map(log_likelihood).collect();
     let comparable = models
         .windows(2)
-        .all(|w| w[0].outcome_label == w[1].outcome_label && w[0].n_obs == w[1].n_obs);
+        .all(|w| w[0].outcome_index() == w[1].outcome_index() && w[0].n_obs() == w[1].n_obs());
     let (weights, how) = match (logl, comparable) {
         (Some(l), true) => {
             // Normalise in logs so huge likelihoods do not overflow.
@@ -380,24 +376,21 @@ fn cdf_zero(input: &ReportInput, usable: Vec<(f64, usize)>) -> Option<CdfZero> {
 
 fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
     // Estimates do not depend on the covariance choice; take them from the first.
-    let est: Vec<Option<f64>> = input
-        .models
-        .iter()
-        .map(|m| m.effects[0].map(|f| f.estimate).filter(|v| v.is_finite()))
+    let models = &input.models;
+    let est: Vec<Option<f64>> = (0..models.len())
+        .map(|i| models.estimate(i, 0).filter(|v| v.is_finite()))
         .collect();
     let all: Vec<f64> = est.iter().flatten().copied().collect();
     let grand = mean(&all).unwrap_or(0.0);
     let total_ss: f64 = all.iter().map(|v| (v - grand).powi(2)).sum();
     // The twins' look-up table: keys are a few small integers, so a fast non-cryptographic
     // hash serves (SipHash and rehashing were most of this function at two million models).
-    let mut by_choices: HashMap<&[usize], f64, rustc_hash::FxBuildHasher> =
-        HashMap::with_capacity_and_hasher(input.models.len(), rustc_hash::FxBuildHasher);
+    let mut by_choices: HashMap<&[u32], f64, rustc_hash::FxBuildHasher> =
+        HashMap::with_capacity_and_hasher(models.len(), rustc_hash::FxBuildHasher);
     by_choices.extend(
-        input
-            .models
-            .iter()
-            .zip(&est)
-            .filter_map(|(m, e)| e.map(|v| (m.choices.as_slice(), v))),
+        est.iter()
+            .enumerate()
+            .filter_map(|(i, e)| e.map(|v| (models.choices(i), v))),
     );
 
     // Decisions, and the options within one, are independent: at millions of models the twin
@@ -409,9 +402,9 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
         .map(|(d, dim)| {
             // Members of every option in one pass over the models.
             let mut by_option: Vec<Vec<usize>> = vec![Vec::new(); dim.options.len()];
-            for (i, m) in input.models.iter().enumerate() {
-                if est[i].is_some() {
-                    by_option[m.choices[d]].push(i);
+            for (i, e) in est.iter().enumerate() {
+                if e.is_some() {
+                    by_option[models.choices(i)[d] as usize].push(i);
                 }
             }
             // Between-option sum of squares; for a pick block it still compares the sets,
@@ -445,7 +438,7 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
                     if o > 0 {
                         for &i in &members {
                             twin.clear();
-                            twin.extend_from_slice(&input.models[i].choices);
+                            twin.extend_from_slice(models.choices(i));
                             twin[d] = 0;
                             if let (Some(v), Some(t)) = (est[i], by_choices.get(twin.as_slice())) {
                                 shifts.push(v - t);
@@ -463,7 +456,7 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
                                 let k = members
                                     .iter()
                                     .filter(|&&i| {
-                                        input.models[i].effects[e].is_some_and(|f| {
+                                        models.effect(i, e).is_some_and(|f| {
                                             significance(&f, input.significance_level) == Some(true)
                                         })
                                     })
@@ -531,10 +524,10 @@ fn candidate_influence(
         total_sum += v;
         total_n += 1;
         // Judged once per model, then counted for each candidate in its set.
-        for (flag, f) in model_significant.iter_mut().zip(&m.effects) {
+        for (flag, f) in model_significant.iter_mut().zip(m.effects()) {
             *flag = f.is_some_and(|f| significance(&f, input.significance_level) == Some(true));
         }
-        for row in panel.row_indices(m.choices[d]) {
+        for row in panel.row_indices(m.choice(d)) {
             with[row].push(v);
             members[row] += 1;
             for (count, &flag) in significant[row].iter_mut().zip(&model_significant) {
@@ -571,8 +564,8 @@ fn diagnostics(input: &ReportInput) -> Diagnostics {
     let tested: Vec<f64> = input
         .models
         .iter()
-        .filter(|m| m.effects.iter().any(Option::is_some))
-        .filter_map(|m| m.het_p_value)
+        .filter(|m| m.has_any_effect())
+        .filter_map(|m| m.het_p_value())
         .collect();
     let rejecting = tested
         .iter()
@@ -584,12 +577,11 @@ fn diagnostics(input: &ReportInput) -> Diagnostics {
         Some(c) => (0..input.error_labels.len())
             .filter(|&e| e != c)
             .map(|e| {
-                let mut ratios: Vec<f64> = input
-                    .models
-                    .iter()
-                    .filter_map(|m| {
-                        let robust = usable_se(&m.effects[e]?)?;
-                        let plain = usable_se(&m.effects[c]?)?;
+                let models = &input.models;
+                let mut ratios: Vec<f64> = (0..models.len())
+                    .filter_map(|i| {
+                        let robust = usable_se(&models.effect(i, e)?)?;
+                        let plain = usable_se(&models.effect(i, c)?)?;
                         Some(robust / plain)
                     })
                     .collect();
@@ -625,11 +617,7 @@ fn cautions(input: &ReportInput) -> Vec<String> {
             out.push("These are raw coefficients of models with different outcome or focus forms; they are not on one scale. Choose a common scale (elasticity, semi-elasticity or marginal effect) before comparing them.".into());
         }
     }
-    let failed = input
-        .models
-        .iter()
-        .filter(|m| matches!(m.status, ModelStatus::Failed(_)))
-        .count();
+    let failed = input.models.failed();
     if failed > 0 {
         out.push(format!(
             "{failed} model(s) failed and are left out of every figure; see `status` and `message` in models.csv."
@@ -638,7 +626,7 @@ fn cautions(input: &ReportInput) -> Vec<String> {
     let no_se = input
         .models
         .iter()
-        .any(|m| m.effects.iter().flatten().any(|f| f.std_error.is_none()));
+        .any(|m| m.effects().flatten().any(|f| f.std_error.is_none()));
     if no_se {
         out.push("Some effects have no delta-method standard error (the covariance between their coefficients is unavailable); they count as not significant and are left out of the bounds.".into());
     }

@@ -152,7 +152,7 @@ pub fn compare(
     let old_effects = effects_by_id(old, old_e);
     let new_effects = effects_by_id(new, new_e);
     let ids = |r: &Report| -> Vec<String> {
-        let mut v: Vec<String> = r.input.models.iter().map(|m| m.model_id.clone()).collect();
+        let mut v: Vec<String> = r.input.models.iter().map(|m| m.id().to_string()).collect();
         v.sort();
         v.dedup();
         v
@@ -211,8 +211,8 @@ fn effects_by_id(report: &Report, e: usize) -> BTreeMap<String, Effect> {
         .models
         .iter()
         .filter_map(|m| {
-            let f = m.effects.get(e).copied().flatten()?;
-            f.estimate.is_finite().then(|| (m.model_id.clone(), f))
+            let f = m.effect(e)?;
+            f.estimate.is_finite().then(|| (m.id().to_string(), f))
         })
         .collect()
 }

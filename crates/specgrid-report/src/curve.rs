@@ -85,8 +85,9 @@ fn sorted_curve(report: &Report) -> Curve {
     // The summary already sorted these models (those with a finite estimate under the first
     // choice) by estimate, ties by id; the curve draws them in that order.
     for &(_, i) in &report.curve_order {
-        let model = &input.models[i];
-        let Some(f) = model.effects[0] else { continue };
+        let Some(f) = input.models.effect(i, 0) else {
+            continue;
+        };
         let half = f.std_error.filter(|s| s.is_finite() && *s > 0.0).map(|se| {
             let q = crate::stats::interval_multiplier(level, f.df);
             q * se
@@ -98,9 +99,7 @@ fn sorted_curve(report: &Report) -> Curve {
             significant: significance(&f, input.significance_level),
             model: i,
         });
-        // Option numbers are below the grid's model limit, far inside u32 (validated input:
-        // one per dimension).
-        choices.extend(model.choices.iter().map(|&c| c as u32));
+        choices.extend_from_slice(input.models.choices(i));
     }
     Curve {
         points,

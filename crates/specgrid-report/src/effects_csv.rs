@@ -53,10 +53,13 @@ pub fn write(report: &Report, out: &mut impl std::io::Write) -> std::io::Result<
     let input = &report.input;
     out.write_all(EFFECTS_COLUMNS.join(",").as_bytes())?;
     out.write_all(b"\n")?;
-    for round in input.models.chunks(BLOCK_MODELS * BLOCKS_PER_ROUND) {
-        let blocks: Vec<Vec<u8>> = round
-            .par_chunks(BLOCK_MODELS)
-            .map(|models| render_block(input, models))
+    let n = input.models.len();
+    for round in (0..n).step_by(BLOCK_MODELS * BLOCKS_PER_ROUND) {
+        let round_end = (round + BLOCK_MODELS * BLOCKS_PER_ROUND).min(n);
+        let blocks: Vec<Vec<u8>> = (round..round_end)
+            .into_par_iter()
+            .step_by(BLOCK_MODELS)
+            .map(|start| render_block(input, start..(start + BLOCK_MODELS).min(round_end)))
             .collect();
         for block in blocks {
             out.write_all(&block)?;
@@ -66,7 +69,7 @@ pub fn write(report: &Report, out: &mut impl std::io::Write) -> std::io::Result<
 }
 
 /// The rows of one block of models, without the header.
-fn render_block(input: &crate::ReportInput, models: &[crate::ModelEntry]) -> Vec<u8> {
+fn render_block(input: &crate::ReportInput, models: std::ops::Range<usize>) -> Vec<u8> {
     let capacity = models.len() * input.error_labels.len() * 130;
     let mut w = csv::WriterBuilder::new()
         .terminator(csv::Terminator::Any(b'\n'))
@@ -78,19 +81,21 @@ fn render_block(input: &crate::ReportInput, models: &[crate::ModelEntry]) -> Vec
 
 fn write_rows(
     input: &crate::ReportInput,
-    models: &[crate::ModelEntry],
+    models: std::ops::Range<usize>,
     w: &mut csv::Writer<Vec<u8>>,
 ) -> csv::Result<()> {
     let mut cell = ryu::Buffer::new();
     for m in models {
         for (e, label) in input.error_labels.iter().enumerate() {
-            let Some(f) = m.effects[e] else { continue };
+            let Some(f) = input.models.effect(m, e) else {
+                continue;
+            };
             let se = f.std_error.filter(|s| s.is_finite() && *s > 0.0);
             let half = se.map(|s| {
                 let q = crate::stats::interval_multiplier(input.confidence_level, f.df);
                 q * s
             });
-            w.write_field(&m.model_id)?;
+            w.write_field(input.models.id(m))?;
             w.write_field(label)?;
             for value in [
                 Some(f.estimate),

@@ -4,6 +4,7 @@
 //! (see [`crate::rows`]).
 
 use crate::effect::{Effect, Scale};
+use crate::models::Models;
 
 /// One decision dimension of the grid.
 #[derive(Debug, Clone, PartialEq)]
@@ -100,7 +101,8 @@ pub enum ModelStatus {
     Failed(String),
 }
 
-/// One model of the grid as the report sees it.
+/// One model of the grid as an owned record: what tests and small tables build a [`Models`]
+/// table from ([`Models::from_entries`]) and what [`crate::ModelRef::to_entry`] gives back.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ModelEntry {
     /// Stable model id.
@@ -148,7 +150,7 @@ pub struct ReportInput {
     /// Baseline model chosen by the study, if it named one.
     pub baseline_model_id: Option<String>,
     /// Every planned model, failed ones included.
-    pub models: Vec<ModelEntry>,
+    pub models: Models,
     /// Text of the study file, shown verbatim in the HTML report.
     pub study_text: String,
     /// Data fingerprint (e.g. the SHA-256 of the data file).

@@ -4,7 +4,7 @@
 //! # Contract with the binary
 //!
 //! 1. Build a [`ReportInput`]: the decisions ([`DimensionInfo`]), the covariance choice labels,
-//!    and per model a [`ModelEntry`] holding the tracked effect under each covariance choice.
+//!    and the [`Models`] table: per model the tracked effect under each covariance choice.
 //!    - `specgrid run`: for each model and covariance choice call [`effect()`] with the model's
 //!      outcome and focus forms, focus coefficients, their SEs (and covariance matrix if the
 //!      engine provides one), and the evaluation point (means of the raw focus and outcome over
@@ -37,6 +37,7 @@ mod html;
 mod input;
 mod latex;
 mod markdown;
+mod models;
 mod rows;
 mod stats;
 mod summary;
@@ -63,6 +64,7 @@ pub use effect::{
 };
 pub use effects_csv::{parse as parse_effects_csv, StoredEffects, EFFECTS_COLUMNS};
 pub use input::{DimensionInfo, ModelEntry, ModelStatus, ReportInput};
+pub use models::{FitStats, ModelRef, Models, NewModel};
 pub use rows::{dimensions_from_rows, lead_term_label, ReportHeader, ResultRow};
 pub use summary::*;
 

@@ -6,7 +6,8 @@ use std::collections::HashMap;
 
 use crate::effect::{Effect, Scale};
 use crate::effects_csv::StoredEffects;
-use crate::input::{DimensionInfo, ModelEntry, ModelStatus, ReportInput};
+use crate::input::{DimensionInfo, ReportInput};
+use crate::models::{FitStats, Models, NewModel};
 use crate::ReportError;
 
 /// One row of `models.csv` (one model × covariance choice × tracked term), as plain values.
@@ -118,7 +119,7 @@ impl ReportInput {
                 error_labels.push(r.errors.clone());
             }
         }
-        let mut models: Vec<ModelEntry> = Vec::new();
+        let mut models = Models::new(dimensions.len(), error_labels.len());
         let option_index: Vec<HashMap<&str, usize>> = dimensions
             .iter()
             .map(|d| {
@@ -157,23 +158,25 @@ impl ReportInput {
                             })
                         })
                         .collect::<Result<Vec<usize>, _>>()?;
-                    let status = if r.status == "ok" {
-                        ModelStatus::Ok
-                    } else {
-                        ModelStatus::Failed(r.message.clone())
-                    };
-                    models.push(ModelEntry {
-                        model_id: r.model_id.clone(),
-                        choices,
-                        status,
-                        effects: vec![None; error_labels.len()],
-                        n_obs: r.n_obs,
-                        n_params: r.n_params,
-                        r_squared: r.r_squared,
-                        resid_sd: r.resid_sd,
-                        het_p_value: r.het_test_p_value,
-                        outcome_label: r.outcome.clone(),
-                    });
+                    let failure = (r.status != "ok").then_some(r.message.as_str());
+                    models
+                        .push(
+                            NewModel {
+                                id: &r.model_id,
+                                choices: &choices,
+                                failure,
+                                stats: FitStats {
+                                    n_obs: r.n_obs,
+                                    n_params: r.n_params,
+                                    r_squared: r.r_squared,
+                                    resid_sd: r.resid_sd,
+                                    het_p_value: r.het_test_p_value,
+                                },
+                                outcome_label: &r.outcome,
+                            },
+                            std::iter::repeat_n(None, error_labels.len()),
+                        )
+                        .map_err(|e| bad(e.to_string()))?;
                     lead_term.push(r.term.clone());
                     index.insert(&r.model_id, models.len() - 1);
                     models.len() - 1
@@ -195,7 +198,7 @@ impl ReportInput {
             let mut effect =
                 Effect::coefficient(estimate, r.std_error, r.df.unwrap_or(f64::INFINITY));
             effect.p_value = r.p_value;
-            models[i].effects[e] = Some(effect);
+            models.set_effect(i, e, Some(effect));
         }
         let effect_label = lead_term_label(lead_term.iter().map(String::as_str));
         Ok(ReportInput::from_entries(
@@ -213,7 +216,7 @@ impl ReportInput {
         header: ReportHeader,
         dimensions: Vec<DimensionInfo>,
         error_labels: Vec<String>,
-        models: Vec<ModelEntry>,
+        models: Models,
         effect_label: String,
     ) -> ReportInput {
         ReportInput {
@@ -241,10 +244,11 @@ impl ReportInput {
     pub fn set_effects(&mut self, scale: Scale, effect_label: String, effects: &StoredEffects) {
         self.scale = scale;
         self.effect_label = effect_label;
-        for m in &mut self.models {
-            let stored = effects.get(&m.model_id);
+        for i in 0..self.models.len() {
+            let stored = effects.get(self.models.id(i));
             for (e, label) in self.error_labels.iter().enumerate() {
-                m.effects[e] = stored.and_then(|s| s.get(label)).copied();
+                let effect = stored.and_then(|s| s.get(label)).copied();
+                self.models.set_effect(i, e, effect);
             }
         }
     }

@@ -96,7 +96,7 @@ fn sala_i_martin_cdf_zero() {
 #[test]
 fn cdf_zero_falls_back_to_equal_weights_across_outcome_forms() {
     let mut input = common::small_grid();
-    input.models[1].outcome_label = "log(y)".into();
+    common::edit_models(&mut input, |m| m[1].outcome_label = "log(y)".into());
     let s = summarize(&input).unwrap();
     let c = s.by_errors[0].cdf_zero.as_ref().unwrap();
     assert!(c.weights.starts_with("equal"));
@@ -149,9 +149,11 @@ fn diagnostics_by_hand() {
 #[test]
 fn missing_std_errors_are_reported_not_invented() {
     let mut input = common::small_grid();
-    for e in input.models[3].effects.iter_mut().flatten() {
-        e.std_error = None;
-    }
+    common::edit_models(&mut input, |m| {
+        for e in m[3].effects.iter_mut().flatten() {
+            e.std_error = None;
+        }
+    });
     let s = summarize(&input).unwrap();
     let c = &s.by_errors[0];
     assert_eq!(c.models_with_std_error, 3);
@@ -197,7 +199,7 @@ fn summary_json_is_stable_and_ordered() {
 #[test]
 fn inconsistent_input_is_refused_with_the_model_named() {
     let mut input = common::small_grid();
-    input.models[2].choices = vec![0, 5];
+    common::edit_models(&mut input, |m| m[2].choices = vec![0, 5]);
     match summarize(&input) {
         Err(ReportError::Input(msg)) => assert!(msg.contains("m3") && msg.contains("`B`"), "{msg}"),
         other => panic!("expected an input error, got {other:?}"),

@@ -6,10 +6,12 @@ mod common;
 use specgrid_report::{compare, Effect, Report, Tolerance};
 
 fn set(input: &mut specgrid_report::ReportInput, id: &str, estimate: f64) {
-    let m = input.models.iter_mut().find(|m| m.model_id == id).unwrap();
-    for e in m.effects.iter_mut().flatten() {
-        *e = Effect::coefficient(estimate, e.std_error, e.df);
-    }
+    common::edit_models(input, |models| {
+        let m = models.iter_mut().find(|m| m.model_id == id).unwrap();
+        for e in m.effects.iter_mut().flatten() {
+            *e = Effect::coefficient(estimate, e.std_error, e.df);
+        }
+    });
 }
 
 #[test]
@@ -19,11 +21,13 @@ fn a_perturbed_rerun_reports_the_changes_worked_out_by_hand() {
     set(&mut new, "m1", -0.2); // flips sign; t = −0.8 under classical (was 4): loses significance
     set(&mut new, "m2", 2.1); // +5 % and +0.2 SE: below both tolerances, not moved
     set(&mut new, "m4", 4.0); // +33 % and +1 SE: moved; t = 4 (was 3): stays significant
-    new.models.retain(|m| m.model_id != "m3");
-    let mut added = new.models[0].clone();
-    added.model_id = "m6".into();
-    added.choices = vec![0, 1];
-    new.models.push(added);
+    common::edit_models(&mut new, |models| {
+        models.retain(|m| m.model_id != "m3");
+        let mut added = models[0].clone();
+        added.model_id = "m6".into();
+        added.choices = vec![0, 1];
+        models.push(added);
+    });
     set(&mut new, "m6", 0.5);
 
     let old = Report::build(old).unwrap();

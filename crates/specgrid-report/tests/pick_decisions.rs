@@ -4,7 +4,9 @@
 //! mean of the models whose set does not (a difference in means; common practice for
 //! "does including this control move the estimate").
 
-use specgrid_report::{DimensionInfo, Effect, ModelEntry, ModelStatus, Report, ReportInput, Scale};
+use specgrid_report::{
+    DimensionInfo, Effect, ModelEntry, ModelStatus, Models, Report, ReportInput, Scale,
+};
 
 /// Every set of 2 of the candidates a, b, c, d (6 sets), one model per set; the effect is the
 /// sum of a per-candidate contribution, so each candidate's with/without difference is known.
@@ -45,7 +47,7 @@ fn pick_grid() -> ReportInput {
         significance_level: 0.05,
         confidence_level: 0.95,
         baseline_model_id: None,
-        models,
+        models: Models::from_entries(models).unwrap(),
         study_text: String::new(),
         data_fingerprint: String::new(),
         baseline_residuals: None,

@@ -183,7 +183,7 @@ fn effects_csv_carries_turning_points_per_model() {
     )
     .unwrap();
     let mut input = common::small_grid();
-    input.models[0].effects[0] = Some(quadratic);
+    common::edit_models(&mut input, |m| m[0].effects[0] = Some(quadratic));
     let csv = Report::build(input).unwrap().effects_csv();
     let first = csv.lines().nth(1).unwrap();
     let cells: Vec<&str> = first.split(',').collect();

@@ -2,8 +2,7 @@
 //! failed models stay counted, and bad rows name their row number.
 
 use specgrid_report::{
-    dimensions_from_rows, ModelStatus, Report, ReportError, ReportHeader, ReportInput, ResultRow,
-    Scale,
+    dimensions_from_rows, Report, ReportError, ReportHeader, ReportInput, ResultRow, Scale,
 };
 
 fn row(id: &str, choice: &str, errors: &str, term: &str, est: f64, se: f64) -> ResultRow {
@@ -66,11 +65,11 @@ fn rows_become_coefficient_scale_models() {
     assert_eq!(input.error_labels, ["classical", "hc1"]);
     assert_eq!(input.effect_label, "x");
     assert_eq!(input.models.len(), 3);
-    let b = &input.models[1];
-    assert_eq!(b.choices, [1]);
-    assert_eq!(b.effects[0].unwrap().estimate, 0.9);
-    assert_eq!(b.effects[1].unwrap().std_error, Some(0.4));
-    assert!(matches!(input.models[2].status, ModelStatus::Failed(ref m) if m == "collinear"));
+    let b = input.models.get(1);
+    assert_eq!(b.choices(), [1]);
+    assert_eq!(b.effect(0).unwrap().estimate, 0.9);
+    assert_eq!(b.effect(1).unwrap().std_error, Some(0.4));
+    assert_eq!(input.models.get(2).failure(), Some("collinear"));
     let report = Report::build(input).unwrap();
     assert_eq!(report.summary.models.failed, 1);
     assert_eq!(report.summary.by_errors[0].models, 2);

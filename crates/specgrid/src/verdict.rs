@@ -140,7 +140,7 @@ pub fn judge(
     }
     if rules.baseline_significant {
         let significant = baseline_index(&report.input)
-            .and_then(|(i, _)| report.input.models[i].effects.get(e).copied().flatten())
+            .and_then(|(i, _)| report.input.models.get(i).effects().nth(e).flatten())
             .and_then(|effect| significance(&effect, report.input.significance_level));
         checked.push(Rule {
             text: format!(
@@ -180,7 +180,9 @@ pub fn judge(
 
 #[cfg(test)]
 mod tests {
-    use specgrid_report::{DimensionInfo, Effect, ModelEntry, ModelStatus, ReportInput, Scale};
+    use specgrid_report::{
+        DimensionInfo, Effect, ModelEntry, ModelStatus, Models, ReportInput, Scale,
+    };
 
     use super::*;
 
@@ -211,12 +213,13 @@ mod tests {
             significance_level: 0.05,
             confidence_level: 0.95,
             baseline_model_id: None,
-            models: vec![
+            models: Models::from_entries(vec![
                 model("m1", 0, 1.0, 0.25),
                 model("m2", 1, 2.0, 0.5),
                 model("m3", 2, -1.0, 0.25),
                 model("m4", 3, 3.0, 5.0),
-            ],
+            ])
+            .unwrap(),
             study_text: String::new(),
             data_fingerprint: String::new(),
             baseline_residuals: None,

@@ -167,9 +167,11 @@ impl FourthMoments {
                 let block = &self.blocks[act[i1]];
                 let base = self.starts[act[i1]];
                 for i2 in i1..na {
-                    let col0 = self.starts[act[i2]] - act[i2] - base;
+                    // Both differences are non-negative (`act` and `starts` increase); the
+                    // order matters, as `starts − act − base` alone can go below zero.
+                    let col0 = self.starts[act[i2]] - base;
                     for i3 in i2..na {
-                        let m = block[(act[i0], col0 + act[i3])];
+                        let m = block[(act[i0], col0 + (act[i3] - act[i2]))];
                         if i0 < i1 && i1 < i2 && i2 < i3 {
                             // Four distinct coordinates: six distinct splits.
                             t[i0 * na + i1] += m * cc[i2 * na + i3];

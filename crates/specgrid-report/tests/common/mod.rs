@@ -1,7 +1,14 @@
 //! A small hand-made grid whose aggregates are worked out by hand in tests/aggregates.rs.
 #![allow(dead_code)]
 
-use specgrid_report::{DimensionInfo, Effect, ModelEntry, ModelStatus, ReportInput, Scale};
+use specgrid_report::{DimensionInfo, Effect, ModelEntry, ModelStatus, Models, ReportInput, Scale};
+
+/// Edits an input's models as owned records (the report keeps them as columns).
+pub fn edit_models(input: &mut ReportInput, edit: impl FnOnce(&mut Vec<ModelEntry>)) {
+    let mut entries = input.models.to_entries();
+    edit(&mut entries);
+    input.models = Models::from_entries(entries).unwrap();
+}
 
 /// One estimated model: id, choices, estimate, (classical SE, hc1 SE), residual sd, BP p-value.
 fn model(
@@ -46,7 +53,7 @@ pub fn small_grid() -> ReportInput {
         significance_level: 0.05,
         confidence_level: 0.95,
         baseline_model_id: None,
-        models: vec![
+        models: Models::from_entries(vec![
             model("m1", [0, 0], 1.0, (0.25, 0.8), 1.0, Some(0.01)),
             model("m2", [1, 0], 2.0, (0.5, 0.5), m2_sd, Some(0.2)),
             model("m3", [0, 1], -1.0, (0.25, 1.0), 1.0, Some(0.03)),
@@ -63,7 +70,8 @@ pub fn small_grid() -> ReportInput {
                 het_p_value: None,
                 outcome_label: "y".into(),
             },
-        ],
+        ])
+        .unwrap(),
         study_text: "[study]\ntitle = \"Small grid\"\n".into(),
         data_fingerprint: "0123abcd".into(),
         baseline_residuals: Some(vec![(1.0, 0.5), (2.0, -0.25), (3.0, 0.1)]),
@@ -126,7 +134,7 @@ pub fn big_grid(per_dim: usize) -> ReportInput {
         significance_level: 0.05,
         confidence_level: 0.95,
         baseline_model_id: None,
-        models,
+        models: Models::from_entries(models).unwrap(),
         study_text: "[study]\ntitle = \"Synthetic grid\"\n".into(),
         data_fingerprint: "feedface".into(),
         baseline_residuals: Some(

@@ -8,7 +8,7 @@ use std::path::Path;
 use polars::prelude::*;
 use serde::{Deserialize, Serialize};
 use specgrid_report::{
-    DimensionInfo, ModelEntry, Report, ReportHeader, ReportInput, ResultRow, Scale, StoredEffects,
+    DimensionInfo, Models, Report, ReportHeader, ReportInput, ResultRow, Scale, StoredEffects,
 };
 
 use crate::exit::Failure;
@@ -126,7 +126,7 @@ pub fn render_models(
     record: &RunRecord,
     study_text: String,
     error_labels: Vec<String>,
-    models: Vec<ModelEntry>,
+    models: Models,
     effect_label: String,
     extras: Extras,
     dir: &Path,

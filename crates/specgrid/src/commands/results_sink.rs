@@ -6,7 +6,7 @@ use std::sync::mpsc::Receiver;
 
 use specgrid_data::{LoadedData, SampleDesign};
 use specgrid_ols::{ModelError, ModelFit};
-use specgrid_report::{Effect, ModelEntry, ModelStatus, Scale, StoredEffects};
+use specgrid_report::{Effect, FitStats, Models, NewModel, Scale, StoredEffects};
 use specgrid_study::Plan;
 
 use crate::effects::{self, EvaluationCache, Recipe};
@@ -63,7 +63,12 @@ pub(super) fn consume(
     let mut terms_out =
         all_terms.then(|| ChunkWriter::new(Some(staging.file("terms.csv")), None, streaming));
     let mut results = ChunkedResults {
-        report_models: Vec::with_capacity(plan.models.len()),
+        report_models: Models::with_capacity(
+            plan.dimensions.len(),
+            plan.errors.len(),
+            plan.models.len(),
+            plan.models.iter().map(|m| m.id.len()).sum(),
+        ),
         lead_terms: Vec::new(),
         effects: recipes.map(|_| StoredEffects::new()),
         residuals: None,
@@ -95,11 +100,14 @@ pub(super) fn consume(
             if let Some(terms) = terms.as_mut() {
                 append_model(plan, &labels, *index, result, terms, None);
             }
-            if let Some(entry) =
-                report_entry(plan, &labels, *index, result, &mut results.lead_terms)
-            {
-                results.report_models.push(entry);
-            }
+            add_report_model(
+                plan,
+                &labels,
+                *index,
+                result,
+                &mut results.report_models,
+                &mut results.lead_terms,
+            )?;
         }
         models_out.write(&table)?;
         if let (Some(out), Some(terms)) = (terms_out.as_mut(), terms.as_ref()) {
@@ -145,7 +153,7 @@ pub(super) struct Estimated<'a> {
 /// What the results writer keeps for the report once every chunk is written.
 pub(super) struct ChunkedResults {
     /// Every model as the report sees it: the first tracked term under each covariance choice.
-    pub report_models: Vec<ModelEntry>,
+    pub report_models: Models,
     /// The distinct first tracked terms (two at most are kept: the report only needs to know
     /// whether every model's is the same).
     pub lead_terms: Vec<String>,
@@ -226,72 +234,69 @@ fn baseline_residuals(
     )
 }
 
-/// One model as the report sees it, made straight from its fit: the same entry
+/// Adds one model as the report sees it, made straight from its fit: the same model
 /// `ReportInput::from_rows` builds from the model's rows in models.csv (its first tracked
-/// term under each covariance choice), without the rows' strings. `None` where the model has
-/// no row (a fit with no tracked coefficient), as there. Adds the model's first tracked term
-/// to `lead_terms` when it is a new one (at most two are kept).
-fn report_entry(
+/// term under each covariance choice), without the rows' strings. Nothing is added where the
+/// model has no row (a fit with no tracked coefficient), as there. Adds the model's first
+/// tracked term to `lead_terms` when it is a new one (at most two are kept).
+fn add_report_model(
     plan: &Plan,
     labels: &RowLabels,
     index: usize,
     estimated: &Estimated<'_>,
+    models: &mut Models,
     lead_terms: &mut Vec<String>,
-) -> Option<ModelEntry> {
+) -> Result<(), Failure> {
     let model = &plan.models[index];
-    let outcome_label = labels.outcomes[model.outcome].clone();
     let names = &estimated.design.design.x_names;
-    let (status, effects, lead_column, stats) = match &estimated.fit {
+    let new = |failure, stats| NewModel {
+        id: &model.id,
+        choices: &model.choices,
+        failure,
+        stats,
+        outcome_label: &labels.outcomes[model.outcome],
+    };
+    let (added, lead_column) = match &estimated.fit {
         Ok(fit) => {
-            let lead = fit
+            let Some(lead) = fit
                 .coefficients
                 .iter()
-                .find(|c| estimated.tracked.contains(&c.column))?;
-            let effects = lead
-                .inference
-                .iter()
-                .map(|inf| {
-                    let mut e = Effect::coefficient(lead.estimate, Some(inf.std_error), inf.df);
-                    e.p_value = Some(inf.p_value);
-                    Some(e)
-                })
-                .collect();
-            let stats = (
-                Some(fit.n_obs as u64),
-                Some(fit.n_params as u64),
-                Some(fit.r_squared),
-                Some(fit.resid_sd),
-                fit.breusch_pagan.map(|b| b.p_value),
-            );
-            (ModelStatus::Ok, effects, lead.column, stats)
+                .find(|c| estimated.tracked.contains(&c.column))
+            else {
+                return Ok(());
+            };
+            let stats = FitStats {
+                n_obs: Some(fit.n_obs as u64),
+                n_params: Some(fit.n_params as u64),
+                r_squared: Some(fit.r_squared),
+                resid_sd: Some(fit.resid_sd),
+                het_p_value: fit.breusch_pagan.map(|b| b.p_value),
+            };
+            let effects = lead.inference.iter().map(|inf| {
+                let mut e = Effect::coefficient(lead.estimate, Some(inf.std_error), inf.df);
+                e.p_value = Some(inf.p_value);
+                Some(e)
+            });
+            (models.push(new(None, stats), effects), lead.column)
         }
         Err(error) => {
-            let lead = *estimated.tracked.first()?;
+            let Some(&lead) = estimated.tracked.first() else {
+                return Ok(());
+            };
+            let message = error.to_string();
+            let effects = std::iter::repeat_n(None, plan.errors.len());
             (
-                ModelStatus::Failed(error.to_string()),
-                vec![None; plan.errors.len()],
+                models.push(new(Some(&message), FitStats::default()), effects),
                 lead,
-                (None, None, None, None, None),
             )
         }
     };
+    added.map_err(|e| Failure::Output(format!("cannot keep the model for the report: {e}")))?;
     let term = &names[lead_column];
     if lead_terms.len() < 2 && !lead_terms.contains(term) {
         lead_terms.push(term.clone());
     }
-    let (n_obs, n_params, r_squared, resid_sd, het_p_value) = stats;
-    Some(ModelEntry {
-        model_id: model.id.clone(),
-        choices: model.choices.clone(),
-        status,
-        effects,
-        n_obs,
-        n_params,
-        r_squared,
-        resid_sd,
-        het_p_value,
-        outcome_label,
-    })
+    Ok(())
 }
 
 /// Labels every row of a run repeats, made once so the results table can borrow them.
