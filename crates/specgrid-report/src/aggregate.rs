@@ -383,15 +383,7 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
     let all: Vec<f64> = est.iter().flatten().copied().collect();
     let grand = mean(&all).unwrap_or(0.0);
     let total_ss: f64 = all.iter().map(|v| (v - grand).powi(2)).sum();
-    // The twins' look-up table: keys are a few small integers, so a fast non-cryptographic
-    // hash serves (SipHash and rehashing were most of this function at two million models).
-    let mut by_choices: HashMap<&[u32], f64, rustc_hash::FxBuildHasher> =
-        HashMap::with_capacity_and_hasher(models.len(), rustc_hash::FxBuildHasher);
-    by_choices.extend(
-        est.iter()
-            .enumerate()
-            .filter_map(|(i, e)| e.map(|v| (models.choices(i), v))),
-    );
+    let twins = Twins::new(input, &est);
 
     // Decisions, and the options within one, are independent: at millions of models the twin
     // look-ups take seconds, so both run on the rayon threads (order is kept by `collect`).
@@ -434,13 +426,11 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
                 .map(|(o, (name, members))| {
                     let vals: Vec<f64> = members.iter().filter_map(|&i| est[i]).collect();
                     let mut shifts = Vec::new();
-                    let mut twin = Vec::new();
                     if o > 0 {
                         for &i in &members {
-                            twin.clear();
-                            twin.extend_from_slice(models.choices(i));
-                            twin[d] = 0;
-                            if let (Some(v), Some(t)) = (est[i], by_choices.get(twin.as_slice())) {
+                            if let (Some(v), Some(t)) =
+                                (est[i], twins.reference(models.choices(i), d))
+                            {
                                 shifts.push(v - t);
                             }
                         }
@@ -493,6 +483,98 @@ fn decision_influence(input: &ReportInput) -> Vec<DecisionInfluence> {
         ranked.push(out[i].clone());
     }
     ranked
+}
+
+/// Every estimated model's estimate by its options, to find a model's twin: the model with the
+/// same options except the reference (first) option on one decision. Where two models take
+/// the same options the later one is kept.
+enum Twins<'a> {
+    /// By the options' mixed-radix code in a dense table (NaN where no model has those
+    /// options; estimates here are finite), when the space of option combinations is at most a
+    /// few times the number of models, as in a full grid. At two million models the look-ups
+    /// by hash of the options were most of the decision influence (docs/performance.md).
+    Dense { strides: Vec<u64>, values: Vec<f64> },
+    /// By the same code through a hash table, when the space is larger (exclusions, sampling).
+    Coded {
+        strides: Vec<u64>,
+        values: HashMap<u64, f64, rustc_hash::FxBuildHasher>,
+    },
+    /// By the options themselves, when their codes would not fit in 64 bits.
+    Options(HashMap<&'a [u32], f64, rustc_hash::FxBuildHasher>),
+}
+
+/// Option combinations per model up to which [`Twins::Dense`] is used.
+const DENSE_TWINS_PER_MODEL: u64 = 4;
+
+impl<'a> Twins<'a> {
+    fn new(input: &'a ReportInput, est: &[Option<f64>]) -> Twins<'a> {
+        let models = &input.models;
+        let estimated = || {
+            est.iter()
+                .enumerate()
+                .filter_map(|(i, e)| e.map(|v| (models.choices(i), v)))
+        };
+        // Last decision varies fastest; None when the product overflows.
+        let mut strides = vec![0u64; input.dimensions.len()];
+        let mut space = Some(1u64);
+        for (stride, dim) in strides.iter_mut().zip(&input.dimensions).rev() {
+            if let Some(s) = space {
+                *stride = s;
+                space = s.checked_mul(dim.options.len().max(1) as u64);
+            }
+        }
+        let Some(space) = space else {
+            let mut values =
+                HashMap::with_capacity_and_hasher(models.len(), rustc_hash::FxBuildHasher);
+            values.extend(estimated());
+            return Twins::Options(values);
+        };
+        let code = |choices: &[u32]| -> u64 {
+            choices
+                .iter()
+                .zip(&strides)
+                .map(|(&c, &s)| c as u64 * s)
+                .sum()
+        };
+        if space
+            <= DENSE_TWINS_PER_MODEL
+                .saturating_mul(models.len() as u64)
+                .max(1024)
+        {
+            let mut values = vec![f64::NAN; space as usize];
+            for (choices, v) in estimated() {
+                values[code(choices) as usize] = v;
+            }
+            return Twins::Dense { strides, values };
+        }
+        let mut values = HashMap::with_capacity_and_hasher(models.len(), rustc_hash::FxBuildHasher);
+        values.extend(estimated().map(|(choices, v)| (code(choices), v)));
+        Twins::Coded { strides, values }
+    }
+
+    /// The estimate of the model taking `choices` except option 0 on decision `d`.
+    fn reference(&self, choices: &[u32], d: usize) -> Option<f64> {
+        let twin_code = |strides: &[u64]| -> u64 {
+            choices
+                .iter()
+                .zip(strides)
+                .enumerate()
+                .map(|(j, (&c, &s))| if j == d { 0 } else { c as u64 * s })
+                .sum()
+        };
+        match self {
+            Twins::Dense { strides, values } => {
+                let v = values[twin_code(strides) as usize];
+                (!v.is_nan()).then_some(v)
+            }
+            Twins::Coded { strides, values } => values.get(&twin_code(strides)).copied(),
+            Twins::Options(values) => {
+                let mut twin = choices.to_vec();
+                twin[d] = 0;
+                values.get(twin.as_slice()).copied()
+            }
+        }
+    }
 }
 
 /// Between-option over total sum of squares; 0 when the estimates do not vary.
@@ -631,4 +713,108 @@ fn cautions(input: &ReportInput) -> Vec<String> {
         out.push("Some effects have no delta-method standard error (the covariance between their coefficients is unavailable); they count as not significant and are left out of the bounds.".into());
     }
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::input::{DimensionInfo, ModelEntry, ModelStatus};
+    use crate::models::Models;
+
+    /// An input whose decisions have `options` options each and whose models take the given
+    /// option numbers, model i's estimate being i (the last of two equal models kept).
+    fn input(options: &[usize], models: &[Vec<usize>]) -> ReportInput {
+        let entries = models
+            .iter()
+            .enumerate()
+            .map(|(i, choices)| ModelEntry {
+                model_id: format!("{i:04}"),
+                choices: choices.clone(),
+                status: ModelStatus::Ok,
+                effects: vec![Some(Effect::coefficient(i as f64, Some(1.0), 10.0))],
+                n_obs: Some(20),
+                n_params: Some(3),
+                r_squared: Some(0.5),
+                resid_sd: Some(1.0),
+                het_p_value: None,
+                outcome_label: "y".into(),
+            })
+            .collect();
+        ReportInput {
+            title: String::new(),
+            scale: Scale::Coefficient,
+            effect_label: "x".into(),
+            dimensions: options
+                .iter()
+                .enumerate()
+                .map(|(d, &n)| {
+                    DimensionInfo::new(format!("d{d}"), (0..n).map(|o| o.to_string()).collect())
+                })
+                .collect(),
+            error_labels: vec!["classical".into()],
+            significance_level: 0.05,
+            confidence_level: 0.95,
+            baseline_model_id: None,
+            models: Models::from_entries(entries).unwrap(),
+            study_text: String::new(),
+            data_fingerprint: String::new(),
+            baseline_residuals: None,
+            across_grid: None,
+        }
+    }
+
+    /// Every look-up against a search over all models (the last match kept, as in the table).
+    fn check_against_search(input: &ReportInput) -> &'static str {
+        let models = &input.models;
+        let est: Vec<Option<f64>> = (0..models.len()).map(|i| models.estimate(i, 0)).collect();
+        let twins = Twins::new(input, &est);
+        for i in 0..models.len() {
+            for d in 0..input.dimensions.len() {
+                let mut want = models.choices(i).to_vec();
+                want[d] = 0;
+                let expected = (0..models.len())
+                    .rev()
+                    .find(|&j| models.choices(j) == want.as_slice())
+                    .map(|j| j as f64);
+                assert_eq!(
+                    twins.reference(models.choices(i), d),
+                    expected,
+                    "model {i}, d {d}"
+                );
+            }
+        }
+        match twins {
+            Twins::Dense { .. } => "dense",
+            Twins::Coded { .. } => "coded",
+            Twins::Options(_) => "options",
+        }
+    }
+
+    #[test]
+    fn twins_are_found_whichever_table_holds_them() {
+        // A full 3 × 2 × 4 grid with one duplicate: the dense table.
+        let mut full: Vec<Vec<usize>> = (0..24).map(|k| vec![k / 8, (k / 4) % 2, k % 4]).collect();
+        full.push(vec![0, 1, 0]);
+        assert_eq!(check_against_search(&input(&[3, 2, 4], &full)), "dense");
+        // A few models in a space of 10⁹ combinations: the coded hash table.
+        let sparse = vec![
+            vec![0, 0, 0],
+            vec![7, 0, 0],
+            vec![7, 999, 0],
+            vec![0, 999, 5],
+            vec![7, 999, 5],
+        ];
+        assert_eq!(
+            check_against_search(&input(&[1000, 1000, 1000], &sparse)),
+            "coded"
+        );
+        // A space beyond 64 bits (five decisions of 10⁴ options): the options themselves.
+        let wide = vec![
+            vec![0; 5],
+            vec![3, 0, 0, 0, 9_999],
+            vec![3, 0, 0, 0, 0],
+            vec![0, 0, 0, 0, 9_999],
+        ];
+        assert_eq!(check_against_search(&input(&[10_000; 5], &wide)), "options");
+    }
 }
