@@ -116,7 +116,8 @@ impl SampleDesign {
                 .flatten()
                 .ok_or_else(|| mismatch(format!("term {t} is not part of this design")))
         };
-        let mut columns = Vec::new();
+        // Sized for one column per term (most terms), so the usual model allocates once.
+        let mut columns = Vec::with_capacity(usize::from(model.intercept) + model.terms.len());
         if model.intercept {
             if !self.intercept {
                 return Err(mismatch("the design has no intercept column".into()));
@@ -126,7 +127,7 @@ impl SampleDesign {
         for &t in &model.terms {
             columns.extend(range_of(t)?);
         }
-        let mut tracked = Vec::new();
+        let mut tracked = Vec::with_capacity(model.tracked.len());
         for &t in &model.tracked {
             tracked.extend(range_of(t)?);
         }

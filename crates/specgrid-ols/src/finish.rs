@@ -79,7 +79,8 @@ pub(crate) fn finish(
     };
     // σ² = RSS/df_resid; the core's own σ² divides by rows − k.
     let classical_factor = (core.n - k) as f64 / df_resid as f64;
-    let mut two_way: Vec<Option<Mat<f64>>> = vec![None; opts.covariances.len()];
+    // Allocated only when some choice is two-way (most grids have none; this runs per model).
+    let mut two_way: Vec<Option<Mat<f64>>> = Vec::new();
     let mut coefficients: Vec<Coefficient> = core
         .reported
         .iter()
@@ -115,18 +116,29 @@ pub(crate) fn finish(
                     }
                 }
             }
+            if two_way.is_empty() {
+                two_way.resize(opts.covariances.len(), None);
+            }
             two_way[ci] = Some(repair_psd(v)?);
         }
     }
     // Row of each reported coefficient among the w columns (when any are computed).
     let nt = core.reported.len();
     let nw = meats.wpos.len();
-    let w_of: Vec<Option<usize>> = core
-        .reported
-        .iter()
-        .map(|&q| meats.wpos.iter().position(|&w| w == q))
-        .collect();
-    let w = |a: usize| w_of[a].expect("reported coefficient has a w column");
+    let w_of: Vec<Option<usize>> = if nw == 0 {
+        Vec::new()
+    } else {
+        core.reported
+            .iter()
+            .map(|&q| meats.wpos.iter().position(|&w| w == q))
+            .collect()
+    };
+    let w = |a: usize| {
+        w_of.get(a)
+            .copied()
+            .flatten()
+            .expect("reported coefficient has a w column")
+    };
     let hc_df = df_resid as f64;
     let mut tracked_covariance = Vec::with_capacity(opts.covariances.len());
     for (ci, (cov, groups)) in opts.covariances.iter().zip(&plan.cov_groups).enumerate() {
@@ -293,8 +305,10 @@ fn within_r_squared(core: &CoreFit) -> f64 {
     }
 }
 
+/// Coefficients up to which per-model scratch lives on the stack.
+const SMALL_K: usize = 32;
+
 /// Koenker (1981) studentized Breusch–Pagan: LM = n·R² of u = e² on the model's columns,
-/// df = k − 1 (the constant, explicit or spanned, carries no slope). Needs a constant.
 /// df = k − 1 (the constant, explicit or spanned, carries no slope). Needs a constant.
 fn breusch_pagan(core: &CoreFit, bp: &BpSums) -> Option<BreuschPagan> {
     if !core.has_constant || core.k() < 2 || core.rss <= 0.0 {
@@ -308,8 +322,18 @@ fn breusch_pagan(core: &CoreFit, bp: &BpSums) -> Option<BreuschPagan> {
     }
     // Q_S'(u − ū1) = R⁻ᵀ D⁻¹ X_S'(u − ū1); its squared norm is the explained sum of squares
     // (the constant lies in the column space, so centring commutes with the projection).
-    let centred: Vec<f64> = (0..k).map(|q| bp.xtu[q] - mean * bp.xt1[q]).collect();
-    let ess = projected_sq_norm(&core.rinv, &core.scales, &centred);
+    // On the stack for the usual model sizes (this runs per model).
+    let centre = |q: usize| bp.xtu[q] - mean * bp.xt1[q];
+    let ess = if k <= SMALL_K {
+        let mut centred = [0.0; SMALL_K];
+        for (q, c) in centred.iter_mut().enumerate().take(k) {
+            *c = centre(q);
+        }
+        projected_sq_norm(&core.rinv, &core.scales, &centred[..k])
+    } else {
+        let centred: Vec<f64> = (0..k).map(centre).collect();
+        projected_sq_norm(&core.rinv, &core.scales, &centred)
+    };
     let statistic = n * (ess / tss).clamp(0.0, 1.0);
     let df = (core.k() - 1) as f64;
     let p_value = ChiSquared::new(df)
