@@ -45,27 +45,36 @@ pub fn render(report: &Report) -> String {
 ///
 /// Rounds of blocks of models are rendered on the rayon threads and written in order, so the
 /// text does not depend on the thread count and a two-million-model file (half a gigabyte) is
-/// never held whole. Fields go one by one to the `csv` writer (which quotes them), each number
-/// formatted by `ryu` into a stack buffer: at two million models this file holds forty million
-/// numbers, and the standard formatter was most of the report's time (docs/performance.md).
-pub fn write(report: &Report, out: &mut impl std::io::Write) -> std::io::Result<()> {
+/// never held whole; each round is written while the next is rendered. Fields go one by one to
+/// the `csv` writer (which quotes them), each number formatted by `ryu` into a stack buffer: at
+/// two million models this file holds forty million numbers, and the standard formatter was
+/// most of the report's time (docs/performance.md).
+pub fn write(report: &Report, out: &mut (impl std::io::Write + Send)) -> std::io::Result<()> {
     use rayon::prelude::*;
     let input = &report.input;
     out.write_all(EFFECTS_COLUMNS.join(",").as_bytes())?;
     out.write_all(b"\n")?;
     let n = input.models.len();
+    let write_round = |out: &mut (dyn std::io::Write + Send), blocks: &[Vec<u8>]| {
+        blocks.iter().try_for_each(|block| out.write_all(block))
+    };
+    let mut rendered: Vec<Vec<u8>> = Vec::new();
     for round in (0..n).step_by(BLOCK_MODELS * BLOCKS_PER_ROUND) {
         let round_end = (round + BLOCK_MODELS * BLOCKS_PER_ROUND).min(n);
-        let blocks: Vec<Vec<u8>> = (round..round_end)
-            .into_par_iter()
-            .step_by(BLOCK_MODELS)
-            .map(|start| render_block(input, start..(start + BLOCK_MODELS).min(round_end)))
-            .collect();
-        for block in blocks {
-            out.write_all(&block)?;
-        }
+        let (written, next) = rayon::join(
+            || write_round(out, &rendered),
+            || {
+                (round..round_end)
+                    .into_par_iter()
+                    .step_by(BLOCK_MODELS)
+                    .map(|start| render_block(input, start..(start + BLOCK_MODELS).min(round_end)))
+                    .collect::<Vec<Vec<u8>>>()
+            },
+        );
+        written?;
+        rendered = next;
     }
-    Ok(())
+    write_round(out, &rendered)
 }
 
 /// The rows of one block of models, without the header.
