@@ -4,7 +4,7 @@ use std::cmp::Ordering;
 
 use rayon::prelude::*;
 
-use crate::grid::{decode, full_size, Layout, SkipBox};
+use crate::grid::{decode, full_size, ContentScratch, Layout, SkipBox};
 use crate::ids::{canonical_text, id_bits, model_id, outcome_text, sample_text};
 use crate::kept::Kept;
 use crate::plan::{Dimension, OutcomeForm, Plan, PlannedModel, RowPolicy, Term, Transform};
@@ -152,27 +152,30 @@ fn build(
     // of fresh memory).
     let mut models: Vec<PlannedModel> = indices
         .par_iter()
-        .map_init(String::new, |text, &index| {
-            let choices = decode(index, &radices);
-            let content = layout.content(&choices);
-            canonical_text(
-                table,
-                &content,
-                &outcome_texts[content.outcome],
-                &sample_texts[content.sample],
-                study.intercept,
-                text,
-            );
-            PlannedModel {
-                id: model_id(text),
-                choices,
-                outcome: content.outcome,
-                sample: content.sample,
-                terms: content.terms,
-                tracked: content.tracked,
-                intercept: study.intercept,
-            }
-        })
+        .map_init(
+            || (String::new(), ContentScratch::default()),
+            |(text, scratch), &index| {
+                let choices = decode(index, &radices);
+                let content = layout.content_with(&choices, scratch);
+                canonical_text(
+                    table,
+                    &content,
+                    &outcome_texts[content.outcome],
+                    &sample_texts[content.sample],
+                    study.intercept,
+                    text,
+                );
+                PlannedModel {
+                    id: model_id(text),
+                    choices,
+                    outcome: content.outcome,
+                    sample: content.sample,
+                    terms: content.terms,
+                    tracked: content.tracked,
+                    intercept: study.intercept,
+                }
+            },
+        )
         .collect();
     drop(indices);
     for (position, model) in models.iter_mut().enumerate() {
