@@ -24,11 +24,14 @@ pub struct Models {
     failures: Vec<(usize, String)>,
     /// One column set per covariance choice.
     effects: Vec<EffectColumn>,
-    n_obs: Vec<Option<u64>>,
-    n_params: Vec<Option<u64>>,
-    r_squared: Vec<Option<f64>>,
-    resid_sd: Vec<Option<f64>>,
-    het_p_value: Vec<Option<f64>>,
+    /// Which of the statistics below model i has ([`N_OBS`], [`N_PARAMS`], …): a byte of
+    /// flags beside plain values, where `Option`s doubled each column.
+    stat_flags: Vec<u8>,
+    n_obs: Vec<u64>,
+    n_params: Vec<u64>,
+    r_squared: Vec<f64>,
+    resid_sd: Vec<f64>,
+    het_p_value: Vec<f64>,
     /// Index into `outcome_labels` per model (a grid has a handful of outcome forms).
     outcome: Vec<u32>,
     outcome_labels: Vec<String>,
@@ -37,14 +40,43 @@ pub struct Models {
 /// The tracked effect of every model under one covariance choice.
 #[derive(Debug, Clone, PartialEq, Default)]
 struct EffectColumn {
-    present: Vec<bool>,
+    /// Per model [`PRESENT`], [`HAS_STD_ERROR`] and [`HAS_P_VALUE`] flags (the values of a
+    /// missing part are zero and never read).
+    flags: Vec<u8>,
     estimate: Vec<f64>,
-    std_error: Vec<Option<f64>>,
+    std_error: Vec<f64>,
     df: Vec<f64>,
-    p_value: Vec<Option<f64>>,
+    p_value: Vec<f64>,
     /// The derived quantities of a few scales; empty until some effect carries one, so a grid
     /// that never has them pays nothing.
     derived: Vec<Derivations>,
+}
+
+/// Effect flag: the model has a number under this covariance choice.
+const PRESENT: u8 = 1;
+/// Effect flag: its standard error is known.
+const HAS_STD_ERROR: u8 = 2;
+/// Effect flag: it carries a p-value of its own.
+const HAS_P_VALUE: u8 = 4;
+/// Statistic flags.
+const N_OBS: u8 = 1;
+const N_PARAMS: u8 = 2;
+const R_SQUARED: u8 = 4;
+const RESID_SD: u8 = 8;
+const HET_P_VALUE: u8 = 16;
+
+/// The flag `bit` when `value` is there, and the value or a placeholder (zero) that is never
+/// read.
+fn split<T: Copy>(value: Option<T>, bit: u8, placeholder: T) -> (u8, T) {
+    match value {
+        Some(v) => (bit, v),
+        None => (0, placeholder),
+    }
+}
+
+/// `value` when `flags` has `bit`.
+fn joined<T>(flags: u8, bit: u8, value: T) -> Option<T> {
+    (flags & bit != 0).then_some(value)
 }
 
 /// The optional parts of an [`Effect`] that only some scales fill.
@@ -103,12 +135,13 @@ impl Models {
         table.id_ends.reserve(models);
         table.choices.reserve(models * dims);
         for column in &mut table.effects {
-            column.present.reserve(models);
+            column.flags.reserve(models);
             column.estimate.reserve(models);
             column.std_error.reserve(models);
             column.df.reserve(models);
             column.p_value.reserve(models);
         }
+        table.stat_flags.reserve(models);
         table.n_obs.reserve(models);
         table.n_params.reserve(models);
         table.r_squared.reserve(models);
@@ -174,11 +207,17 @@ impl Models {
             self.failures.push((index, message.to_string()));
         }
         let s = model.stats;
-        self.n_obs.push(s.n_obs);
-        self.n_params.push(s.n_params);
-        self.r_squared.push(s.r_squared);
-        self.resid_sd.push(s.resid_sd);
-        self.het_p_value.push(s.het_p_value);
+        let (f1, n_obs) = split(s.n_obs, N_OBS, 0);
+        let (f2, n_params) = split(s.n_params, N_PARAMS, 0);
+        let (f3, r_squared) = split(s.r_squared, R_SQUARED, 0.0);
+        let (f4, resid_sd) = split(s.resid_sd, RESID_SD, 0.0);
+        let (f5, het_p_value) = split(s.het_p_value, HET_P_VALUE, 0.0);
+        self.stat_flags.push(f1 | f2 | f3 | f4 | f5);
+        self.n_obs.push(n_obs);
+        self.n_params.push(n_params);
+        self.r_squared.push(r_squared);
+        self.resid_sd.push(resid_sd);
+        self.het_p_value.push(het_p_value);
         let label = match self
             .outcome_labels
             .iter()
@@ -282,7 +321,7 @@ impl Models {
     /// than [`Models::effect`] where only the estimate is read).
     pub fn estimate(&self, i: usize, e: usize) -> Option<f64> {
         let column = &self.effects[e];
-        column.present[i].then(|| column.estimate[i])
+        joined(column.flags[i], PRESENT, column.estimate[i])
     }
 
     /// Replaces model `i`'s effect under covariance choice `e`.
@@ -304,15 +343,35 @@ impl Models {
     }
 }
 
+/// What the columns hold for a model without an effect. The placeholders are zeros, not NaN,
+/// so that tables with the same models compare equal.
+const ABSENT: Effect = Effect {
+    estimate: 0.0,
+    std_error: None,
+    df: 0.0,
+    proportional_change: None,
+    turning_point: None,
+    p_value: None,
+};
+
+/// An effect's flags, standard error and p-value as stored (zero where missing).
+fn effect_parts(present: bool, f: &Effect) -> (u8, f64, f64) {
+    let (has_se, std_error) = split(f.std_error, HAS_STD_ERROR, 0.0);
+    let (has_p, p_value) = split(f.p_value, HAS_P_VALUE, 0.0);
+    let present = if present { PRESENT } else { 0 };
+    (present | has_se | has_p, std_error, p_value)
+}
+
 impl EffectColumn {
     /// Appends model `index`'s effect (the column has exactly `index` entries before).
     fn push(&mut self, index: usize, effect: Option<Effect>) {
-        let f = effect.unwrap_or_else(|| Effect::coefficient(f64::NAN, None, f64::NAN));
-        self.present.push(effect.is_some());
+        let f = effect.unwrap_or(ABSENT);
+        let (flags, std_error, p_value) = effect_parts(effect.is_some(), &f);
+        self.flags.push(flags);
         self.estimate.push(f.estimate);
-        self.std_error.push(f.std_error);
+        self.std_error.push(std_error);
         self.df.push(f.df);
-        self.p_value.push(f.p_value);
+        self.p_value.push(p_value);
         let derivations = Derivations {
             proportional_change: f.proportional_change,
             turning_point: f.turning_point,
@@ -327,7 +386,7 @@ impl EffectColumn {
 
     /// Drops every entry from `len` on (undoes a partly added model).
     fn truncate(&mut self, len: usize) {
-        self.present.truncate(len);
+        self.flags.truncate(len);
         self.estimate.truncate(len);
         self.std_error.truncate(len);
         self.df.truncate(len);
@@ -336,35 +395,37 @@ impl EffectColumn {
     }
 
     fn get(&self, i: usize) -> Option<Effect> {
-        if !self.present[i] {
+        let flags = self.flags[i];
+        if flags & PRESENT == 0 {
             return None;
         }
         let d = self.derived.get(i).copied().unwrap_or_default();
         Some(Effect {
             estimate: self.estimate[i],
-            std_error: self.std_error[i],
+            std_error: joined(flags, HAS_STD_ERROR, self.std_error[i]),
             df: self.df[i],
             proportional_change: d.proportional_change,
             turning_point: d.turning_point,
-            p_value: self.p_value[i],
+            p_value: joined(flags, HAS_P_VALUE, self.p_value[i]),
         })
     }
 
     fn set(&mut self, i: usize, effect: Option<Effect>) {
-        let f = effect.unwrap_or_else(|| Effect::coefficient(f64::NAN, None, f64::NAN));
-        self.present[i] = effect.is_some();
+        let f = effect.unwrap_or(ABSENT);
+        let (flags, std_error, p_value) = effect_parts(effect.is_some(), &f);
+        self.flags[i] = flags;
         self.estimate[i] = f.estimate;
-        self.std_error[i] = f.std_error;
+        self.std_error[i] = std_error;
         self.df[i] = f.df;
-        self.p_value[i] = f.p_value;
+        self.p_value[i] = p_value;
         let derivations = Derivations {
             proportional_change: f.proportional_change,
             turning_point: f.turning_point,
         };
         if derivations != Derivations::default() || i < self.derived.len() {
-            if self.derived.len() < self.present.len() {
+            if self.derived.len() < self.flags.len() {
                 self.derived
-                    .resize(self.present.len(), Derivations::default());
+                    .resize(self.flags.len(), Derivations::default());
             }
             self.derived[i] = derivations;
         }
@@ -412,7 +473,10 @@ impl<'a> ModelRef<'a> {
 
     /// Whether the model has a number under some covariance choice.
     pub fn has_any_effect(&self) -> bool {
-        self.table.effects.iter().any(|c| c.present[self.i])
+        self.table
+            .effects
+            .iter()
+            .any(|c| c.flags[self.i] & PRESENT != 0)
     }
 
     /// Why the model failed; `None` when it was estimated.
@@ -441,27 +505,47 @@ impl<'a> ModelRef<'a> {
 
     /// Rows used.
     pub fn n_obs(&self) -> Option<u64> {
-        self.table.n_obs[self.i]
+        joined(
+            self.table.stat_flags[self.i],
+            N_OBS,
+            self.table.n_obs[self.i],
+        )
     }
 
     /// Coefficients estimated.
     pub fn n_params(&self) -> Option<u64> {
-        self.table.n_params[self.i]
+        joined(
+            self.table.stat_flags[self.i],
+            N_PARAMS,
+            self.table.n_params[self.i],
+        )
     }
 
     /// R² of the fit.
     pub fn r_squared(&self) -> Option<f64> {
-        self.table.r_squared[self.i]
+        joined(
+            self.table.stat_flags[self.i],
+            R_SQUARED,
+            self.table.r_squared[self.i],
+        )
     }
 
     /// Residual standard deviation.
     pub fn resid_sd(&self) -> Option<f64> {
-        self.table.resid_sd[self.i]
+        joined(
+            self.table.stat_flags[self.i],
+            RESID_SD,
+            self.table.resid_sd[self.i],
+        )
     }
 
     /// p-value of the Breusch–Pagan test, when the engine computed it.
     pub fn het_p_value(&self) -> Option<f64> {
-        self.table.het_p_value[self.i]
+        joined(
+            self.table.stat_flags[self.i],
+            HET_P_VALUE,
+            self.table.het_p_value[self.i],
+        )
     }
 
     /// Label of the outcome form.
@@ -519,6 +603,8 @@ mod tests {
         assert_eq!(table.failed(), 1);
         let back: Vec<ModelEntry> = table.iter().map(|m| m.to_entry()).collect();
         assert_eq!(back, entries);
+        // Missing parts leave placeholders that do not spoil equality.
+        assert_eq!(Models::from_entries(entries.clone()).unwrap(), table);
         assert_eq!(table.get(1).failure(), Some("collinear"));
         assert_eq!(table.get(2).outcome_index(), 0);
         assert_eq!(table.estimate(0, 1), None);
@@ -535,7 +621,7 @@ mod tests {
             let message = table.push_entry(&bad).unwrap_err().to_string();
             assert!(message.contains(&bad.model_id), "{message}");
             assert!(table.is_empty());
-            assert!(table.effects.iter().all(|c| c.present.is_empty()));
+            assert!(table.effects.iter().all(|c| c.flags.is_empty()));
         }
     }
 
