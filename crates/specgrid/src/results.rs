@@ -146,6 +146,15 @@ impl<'a> ResultsTable<'a> {
         self.values.reserve(rows);
     }
 
+    /// Empties the table, keeping its columns' memory for the next chunk.
+    pub fn clear(&mut self) {
+        self.models.clear();
+        self.model.clear();
+        self.errors.clear();
+        self.term.clear();
+        self.values.clear();
+    }
+
     /// Number of rows so far.
     #[allow(clippy::len_without_is_empty)]
     pub fn len(&self) -> usize {

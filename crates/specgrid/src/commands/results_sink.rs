@@ -77,8 +77,11 @@ pub(super) fn consume(
     let mut cache = EvaluationCache::default();
     let mut problems = Vec::new();
     let labels = RowLabels::of(plan);
+    // One table for every chunk, emptied between them: its columns are tens of megabytes per
+    // chunk, and made afresh each time they were first touched again each time.
+    let mut table = ResultsTable::new(&dimension_names)?;
     for estimated in chunks {
-        let mut table = ResultsTable::new(&dimension_names)?;
+        table.clear();
         // One row per covariance choice and tracked term of each model.
         let rows: usize = estimated
             .iter()
