@@ -95,8 +95,9 @@ pub struct TermValues {
 pub struct ModelRows<'a> {
     /// Model id.
     pub model_id: &'a str,
-    /// Option name per decision dimension.
-    pub choices: Vec<&'a str>,
+    /// Option number per decision dimension (the model's, borrowed from the plan); the table
+    /// turns them into option names only when it builds its columns.
+    pub choices: &'a [usize],
     /// Statistics of the fit (empty for a failed model).
     pub stats: ModelStats<'a>,
     /// `ok` or `failed`.
@@ -109,6 +110,8 @@ pub struct ModelRows<'a> {
 /// belongs to, the covariance choice, the term and its numbers.
 pub struct ResultsTable<'a> {
     dimension_names: Vec<String>,
+    /// Option names per dimension.
+    options: Vec<&'a [String]>,
     models: Vec<ModelRows<'a>>,
     model: Vec<u32>,
     errors: Vec<&'a str>,
@@ -118,8 +121,9 @@ pub struct ResultsTable<'a> {
 
 impl<'a> ResultsTable<'a> {
     /// An empty table with one column per decision dimension.
-    pub fn new(dimension_names: &[String]) -> Result<ResultsTable<'a>, Failure> {
-        for name in dimension_names {
+    pub fn new(dimensions: &'a [specgrid_study::Dimension]) -> Result<ResultsTable<'a>, Failure> {
+        let dimension_names: Vec<String> = dimensions.iter().map(|d| d.name.clone()).collect();
+        for name in &dimension_names {
             if FIXED_COLUMNS.contains(&name.as_str()) {
                 return Err(Failure::Study(format!(
                     "the decision dimension `{name}` has the same name as a results column; rename that control block"
@@ -127,7 +131,8 @@ impl<'a> ResultsTable<'a> {
             }
         }
         Ok(ResultsTable {
-            dimension_names: dimension_names.to_vec(),
+            dimension_names,
+            options: dimensions.iter().map(|d| d.options.as_slice()).collect(),
             models: Vec::new(),
             model: Vec::new(),
             errors: Vec::new(),
@@ -186,7 +191,10 @@ impl<'a> ResultsTable<'a> {
         let rows = 0..n;
         let mut columns = vec![text_column("model_id", n, |i| owner(i).model_id)];
         for (d, name) in self.dimension_names.iter().enumerate() {
-            columns.push(text_column(name, n, |i| owner(i).choices[d]));
+            let options = self.options[d];
+            columns.push(text_column(name, n, |i| {
+                options[owner(i).choices[d]].as_str()
+            }));
         }
         let v = &self.values;
         let s = |i: usize| &owner(i).stats;

@@ -54,7 +54,6 @@ pub(super) fn consume(
         no_csv,
         streaming,
     } = inputs;
-    let dimension_names: Vec<String> = plan.dimensions.iter().map(|d| d.name.clone()).collect();
     let mut models_out = ChunkWriter::new(
         (!no_csv).then(|| staging.file("models.csv")),
         Some(staging.file("models.parquet")),
@@ -79,7 +78,7 @@ pub(super) fn consume(
     let labels = RowLabels::of(plan);
     // One table for every chunk, emptied between them: its columns are tens of megabytes per
     // chunk, and made afresh each time they were first touched again each time.
-    let mut table = ResultsTable::new(&dimension_names)?;
+    let mut table = ResultsTable::new(&plan.dimensions)?;
     for estimated in chunks {
         table.clear();
         // One row per covariance choice and tracked term of each model.
@@ -89,7 +88,7 @@ pub(super) fn consume(
             .sum();
         table.reserve(estimated.len(), rows);
         let mut terms = all_terms
-            .then(|| ResultsTable::new(&dimension_names))
+            .then(|| ResultsTable::new(&plan.dimensions))
             .transpose()?;
         for (index, result) in &estimated {
             append_model(
@@ -332,11 +331,7 @@ fn append_model<'a>(
     only: Option<&[usize]>,
 ) {
     let model = &plan.models[index];
-    let choices: Vec<&str> = plan
-        .choice_names(model)
-        .into_iter()
-        .map(|(_, option)| option)
-        .collect();
+    let choices = model.choices.as_slice();
     let design = estimated.design;
     let names = &design.design.x_names;
     let outcome = labels.outcomes[model.outcome].as_str();
