@@ -94,7 +94,7 @@ fn render_block(input: &crate::ReportInput, models: std::ops::Range<usize>) -> V
         .collect();
     let mut cell = ryu::Buffer::new();
     for m in models {
-        for e in 0..input.error_labels.len() {
+        for (e, label) in labels.iter().enumerate() {
             let Some(f) = input.models.effect(m, e) else {
                 continue;
             };
@@ -105,7 +105,7 @@ fn render_block(input: &crate::ReportInput, models: std::ops::Range<usize>) -> V
             });
             push_text(&mut out, input.models.id(m));
             out.push(b',');
-            out.extend_from_slice(&labels[e]);
+            out.extend_from_slice(label);
             for value in [
                 Some(f.estimate),
                 f.std_error,
