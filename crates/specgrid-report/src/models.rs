@@ -1,8 +1,9 @@
 //! The grid's models as the report keeps them: one column per field instead of one record per
 //! model. At two million models a record with its own id, choices, effects and label strings
 //! was about 470 bytes and four allocations a model, and first touches of that gigabyte were
-//! most of a run's system time; the columns are about a third of that, allocated a few times
-//! per run, and the aggregates read only the columns they need (docs/performance.md, session 8).
+//! most of a run's system time; the columns take about 131 bytes a model, allocated a few
+//! times per run, and the aggregates read only the columns they need (docs/performance.md,
+//! session 8).
 
 use crate::effect::{Derived, Effect};
 use crate::input::{ModelEntry, ModelStatus};

@@ -90,7 +90,6 @@ pub(crate) struct Layout {
     sample_dim: usize,
 }
 
-/// The content of one model, with terms numbered in [`Layout::table`].
 /// Working space of [`Layout::content_with`], reused from one model to the next.
 #[derive(Debug, Default)]
 pub(crate) struct ContentScratch {
@@ -101,6 +100,7 @@ pub(crate) struct ContentScratch {
     picked: Vec<usize>,
 }
 
+/// The content of one model, with terms numbered in [`Layout::table`].
 pub(crate) struct ModelContent {
     /// Index into the study's outcome forms.
     pub outcome: usize,
