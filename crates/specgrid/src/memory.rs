@@ -21,7 +21,10 @@ const ROW_COPIES: u128 = 4;
 /// Bytes the report keeps per model while a chunked run goes on (id, option indices, status,
 /// outcome label), plus this much per covariance choice (its effect). Calibrated on the
 /// 2,048,200-model pick grid with `--chunk 200000` (docs/performance.md): peak 3.5 GiB, which
-/// these constants reproduce with the plan's share and one chunk of rows.
+/// these constants reproduced with the plan's share and one chunk of rows. Since the report
+/// keeps its models as columns (about 131 bytes a model at two covariance choices, session 8)
+/// the same grid peaks at 1.7–1.8 GiB, so the estimate now errs further on the side of
+/// refusing; recalibrating it, effect scales other than `coefficient` included, is left open.
 const BYTES_PER_REPORT_MODEL: u128 = 300;
 const BYTES_PER_REPORT_EFFECT: u128 = 100;
 
