@@ -504,49 +504,34 @@ impl<'a> ModelRef<'a> {
         }
     }
 
+    /// Model's value in a statistic column, when its flag `bit` says it has one.
+    fn stat<T: Copy>(&self, bit: u8, column: &[T]) -> Option<T> {
+        joined(self.table.stat_flags[self.i], bit, column[self.i])
+    }
+
     /// Rows used.
     pub fn n_obs(&self) -> Option<u64> {
-        joined(
-            self.table.stat_flags[self.i],
-            N_OBS,
-            self.table.n_obs[self.i],
-        )
+        self.stat(N_OBS, &self.table.n_obs)
     }
 
     /// Coefficients estimated.
     pub fn n_params(&self) -> Option<u64> {
-        joined(
-            self.table.stat_flags[self.i],
-            N_PARAMS,
-            self.table.n_params[self.i],
-        )
+        self.stat(N_PARAMS, &self.table.n_params)
     }
 
     /// R² of the fit.
     pub fn r_squared(&self) -> Option<f64> {
-        joined(
-            self.table.stat_flags[self.i],
-            R_SQUARED,
-            self.table.r_squared[self.i],
-        )
+        self.stat(R_SQUARED, &self.table.r_squared)
     }
 
     /// Residual standard deviation.
     pub fn resid_sd(&self) -> Option<f64> {
-        joined(
-            self.table.stat_flags[self.i],
-            RESID_SD,
-            self.table.resid_sd[self.i],
-        )
+        self.stat(RESID_SD, &self.table.resid_sd)
     }
 
     /// p-value of the Breusch–Pagan test, when the engine computed it.
     pub fn het_p_value(&self) -> Option<f64> {
-        joined(
-            self.table.stat_flags[self.i],
-            HET_P_VALUE,
-            self.table.het_p_value[self.i],
-        )
+        self.stat(HET_P_VALUE, &self.table.het_p_value)
     }
 
     /// Label of the outcome form.
