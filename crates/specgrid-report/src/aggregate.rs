@@ -129,7 +129,8 @@ pub(crate) fn summarize_with_order(
 /// Index of the baseline model and how it was chosen: the study's named model if it has an
 /// estimate, else the model taking the first option everywhere, else the first estimated model.
 pub fn baseline_index(input: &ReportInput) -> Option<(usize, &'static str)> {
-    if input.error_labels.is_empty() {
+    // The models' own shape, not the labels': this is public and may see unvalidated input.
+    if input.models.errors() == 0 {
         return None;
     }
     let has = |m: &ModelRef<'_>| input.models.estimate(m.index(), 0).is_some();

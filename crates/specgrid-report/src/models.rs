@@ -168,11 +168,11 @@ impl Models {
     /// Adds one model with its effect under each covariance choice (`None` where there is no
     /// number). Fails, adding nothing, when the choices or effects do not have the table's
     /// lengths.
-    pub fn push(
-        &mut self,
-        model: NewModel<'_>,
-        effects: impl IntoIterator<Item = Option<Effect>>,
-    ) -> Result<(), ReportError> {
+    pub fn push<E>(&mut self, model: NewModel<'_>, effects: E) -> Result<(), ReportError>
+    where
+        E: IntoIterator<Item = Option<Effect>>,
+        E::IntoIter: ExactSizeIterator,
+    {
         if model.choices.len() != self.dims {
             return Err(ReportError::Input(format!(
                 "model {} has {} choices for {} decisions",
@@ -181,24 +181,18 @@ impl Models {
                 self.dims
             )));
         }
-        let index = self.len();
-        let mut given = 0;
-        for effect in effects {
-            if given == self.errors {
-                given += 1;
-                break;
-            }
-            self.effects[given].push(index, effect);
-            given += 1;
-        }
-        if given != self.errors {
-            for column in &mut self.effects {
-                column.truncate(index);
-            }
+        let effects = effects.into_iter();
+        if effects.len() != self.errors {
             return Err(ReportError::Input(format!(
-                "model {} does not have one effect for each of the report's {} covariance choices",
-                model.id, self.errors
+                "model {} has effects for {} covariance choices, the report has {}",
+                model.id,
+                effects.len(),
+                self.errors
             )));
+        }
+        let index = self.len();
+        for (column, effect) in self.effects.iter_mut().zip(effects) {
+            column.push(effect);
         }
         self.id_text.push_str(model.id);
         self.id_ends.push(self.id_text.len());
@@ -240,14 +234,6 @@ impl Models {
             ModelStatus::Ok => None,
             ModelStatus::Failed(message) => Some(message.as_str()),
         };
-        if entry.effects.len() != self.errors {
-            return Err(ReportError::Input(format!(
-                "model {} has effects for {} covariance choices, the report has {}",
-                entry.model_id,
-                entry.effects.len(),
-                self.errors
-            )));
-        }
         self.push(
             NewModel {
                 id: &entry.model_id,
@@ -364,35 +350,14 @@ fn effect_parts(present: bool, f: &Effect) -> (u8, f64, f64) {
 }
 
 impl EffectColumn {
-    /// Appends model `index`'s effect (the column has exactly `index` entries before).
-    fn push(&mut self, index: usize, effect: Option<Effect>) {
-        let f = effect.unwrap_or(ABSENT);
-        let (flags, std_error, p_value) = effect_parts(effect.is_some(), &f);
-        self.flags.push(flags);
-        self.estimate.push(f.estimate);
-        self.std_error.push(std_error);
-        self.df.push(f.df);
-        self.p_value.push(p_value);
-        let derivations = Derivations {
-            proportional_change: f.proportional_change,
-            turning_point: f.turning_point,
-        };
-        if derivations != Derivations::default() {
-            self.derived.resize(index, Derivations::default());
-            self.derived.push(derivations);
-        } else if !self.derived.is_empty() {
-            self.derived.push(derivations);
-        }
-    }
-
-    /// Drops every entry from `len` on (undoes a partly added model).
-    fn truncate(&mut self, len: usize) {
-        self.flags.truncate(len);
-        self.estimate.truncate(len);
-        self.std_error.truncate(len);
-        self.df.truncate(len);
-        self.p_value.truncate(len);
-        self.derived.truncate(len);
+    /// Appends the next model's effect: an absent one's placeholders, then [`EffectColumn::set`].
+    fn push(&mut self, effect: Option<Effect>) {
+        self.flags.push(0);
+        self.estimate.push(0.0);
+        self.std_error.push(0.0);
+        self.df.push(0.0);
+        self.p_value.push(0.0);
+        self.set(self.flags.len() - 1, effect);
     }
 
     fn get(&self, i: usize) -> Option<Effect> {
@@ -423,7 +388,9 @@ impl EffectColumn {
             proportional_change: f.proportional_change,
             turning_point: f.turning_point,
         };
-        if derivations != Derivations::default() || i < self.derived.len() {
+        // `derived` stays empty (reads past its end are the default) until some effect carries
+        // a derived quantity; from then on it is as long as the other columns.
+        if derivations != Derivations::default() || !self.derived.is_empty() {
             if self.derived.len() < self.flags.len() {
                 self.derived
                     .resize(self.flags.len(), Derivations::default());
@@ -608,6 +575,7 @@ mod tests {
             assert!(message.contains(&bad.model_id), "{message}");
             assert!(table.is_empty());
             assert!(table.effects.iter().all(|c| c.flags.is_empty()));
+            assert!(table.id_text.is_empty() && table.stat_flags.is_empty());
         }
     }
 
