@@ -45,10 +45,10 @@ pub fn render(report: &Report) -> String {
 ///
 /// Rounds of blocks of models are rendered on the rayon threads and written in order, so the
 /// text does not depend on the thread count and a two-million-model file (half a gigabyte) is
-/// never held whole; each round is written while the next is rendered. Fields go one by one to
-/// the `csv` writer (which quotes them), each number formatted by `ryu` into a stack buffer: at
-/// two million models this file holds forty million numbers, and the standard formatter was
-/// most of the report's time (docs/performance.md).
+/// never held whole; each round is written while the next is rendered. Each number is
+/// formatted by `ryu` into a stack buffer (at two million models this file holds forty million
+/// numbers, and the standard formatter was most of the report's time; docs/performance.md), and
+/// rows are assembled as [`render_block`] says.
 pub fn write(report: &Report, out: &mut (impl std::io::Write + Send)) -> std::io::Result<()> {
     use rayon::prelude::*;
     let input = &report.input;
