@@ -24,4 +24,5 @@ pub use absorb::{
 pub use api::*;
 pub use independent::fit_independent;
 pub use moments::{CovarianceRoute, MomentStats};
+pub use row_pass::RowProducts;
 pub use shared::SharedFactor;

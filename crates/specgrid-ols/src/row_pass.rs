@@ -18,7 +18,80 @@ use crate::plan::Plan;
 /// Rows per block: keeps the block's E, W and leverage matrices in cache for typical batches.
 const ROW_BLOCK: usize = 512;
 
-/// Runs the pass for `cores` (all on the same design) and returns one [`Meats`] per core.
+/// How much more a multiply-add costs in the loops over a model's own columns than in faer's
+/// matrix products over all union columns (which run on the widest vector unit the processor
+/// has). The own columns are used when they need fewer than 1/`OWN_COLUMN_COST` of the dense
+/// products' multiply-adds. `benches/row_products.rs` put the break-even at a ratio of about 5
+/// (4.5–5.5 at 2,000 and 20,000 rows, lower at 150 rows); the 2,048,200-model grid (61 union
+/// columns, about 7 a model) needs a ninth (docs/performance.md, session 9).
+const OWN_COLUMN_COST: usize = 5;
+
+/// Which products the pass over rows uses ([`crate::SharedFactor::set_row_products`]); the
+/// numbers agree to rounding (the sums run in another order).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub enum RowProducts {
+    /// The cheaper of the two for each batch, by counted multiply-adds.
+    #[default]
+    Auto,
+    /// One matrix product per block of rows over every union column.
+    Dense,
+    /// Loops over each model's own columns.
+    OwnColumns,
+}
+
+/// How a batch forms E = Y − X·B, X'(E∘E), W = X·A and the leverage factors.
+enum Products<'a> {
+    /// One faer product per block over every union column (the scattered B, A and L hold
+    /// zeros outside each model's columns).
+    Dense,
+    /// Loops over each model's own columns (contiguous union columns, `x_cols[c]`).
+    Own(Vec<&'a [f64]>),
+}
+
+impl<'a> Products<'a> {
+    /// The cheaper way for these models: per row, the dense products cost p multiply-adds for
+    /// each of their 2·models + nw + nl columns; the own loops cost one per kept column of each
+    /// product (E and X'(E∘E) per model, W per influence column, and the leverage factors' c + 1
+    /// columns for column c). Dense when X's columns are not contiguous, and as `preference`
+    /// says otherwise.
+    fn choose(
+        preference: RowProducts,
+        x: MatRef<'a, f64>,
+        cores: &[&CoreFit],
+        nw_per_model: &[usize],
+        leverage: bool,
+    ) -> Self {
+        let p = x.ncols();
+        let dense: usize = p * cores
+            .iter()
+            .zip(nw_per_model)
+            .map(|(c, &nw)| 2 + nw + if leverage { c.k() } else { 0 })
+            .sum::<usize>();
+        let own: usize = cores
+            .iter()
+            .zip(nw_per_model)
+            .map(|(c, &nw)| {
+                let k = c.k();
+                (2 + nw) * k + if leverage { k * (k + 1) / 2 } else { 0 }
+            })
+            .sum();
+        let own_wanted = match preference {
+            RowProducts::Auto => own * OWN_COLUMN_COST < dense,
+            RowProducts::Dense => false,
+            RowProducts::OwnColumns => true,
+        };
+        if !own_wanted {
+            return Products::Dense;
+        }
+        let cols: Option<Vec<&'a [f64]>> = (0..p)
+            .map(|c| x.col(c).try_as_col_major().map(|col| col.as_slice()))
+            .collect();
+        cols.map_or(Products::Dense, Products::Own)
+    }
+}
+
+/// Runs the pass for `cores` (all on the same design) and returns one [`Meats`] per core,
+/// forming the products as `preference` says ([`RowProducts`]).
 /// `x_colsum` are the union column sums (for the Breusch–Pagan centring). With `rows` (an
 /// absorbed or weighted design) each row's leverage gains the absorbed part and, under
 /// frequency weights, leverage and HC terms are per represented observation (divided by f).
@@ -29,6 +102,7 @@ pub(crate) fn row_pass(
     cores: &[&CoreFit],
     plan: &Plan,
     rows: Option<&RowAdjust>,
+    preference: RowProducts,
 ) -> Vec<Meats> {
     let fe_lev = if plan.need_leverage() {
         rows.and_then(|r| r.fe_leverage())
@@ -90,6 +164,8 @@ pub(crate) fn row_pass(
             }
         }
     }
+    let nw_per_model: Vec<usize> = meats.iter().map(|m| m.wpos.len()).collect();
+    let products = Products::choose(preference, x, cores, &nw_per_model, nl > 0);
     let mut cluster_sums: Vec<Vec<f64>> = plan
         .groupings
         .iter()
@@ -144,10 +220,21 @@ pub(crate) fn row_pass(
                 .col_mut(t)
                 .copy_from(y.col(core.outcome).subrows(r0, nr));
         }
-        matmul(eb.rb_mut(), Accum::Add, xb, neg_b.as_ref(), 1.0, Par::Seq);
+        match &products {
+            Products::Dense => matmul(eb.rb_mut(), Accum::Add, xb, neg_b.as_ref(), 1.0, Par::Seq),
+            Products::Own(x_cols) => {
+                for (t, core) in cores.iter().enumerate() {
+                    let ec = &mut e.col_as_slice_mut(t)[..nr];
+                    for (&c, &b) in core.kept.iter().zip(&core.coef) {
+                        axpy(ec, -b, &x_cols[c][r0..r0 + nr]);
+                    }
+                }
+            }
+        }
         let mut ub = u.as_mut().subrows_mut(0, nr);
+        let eb = e.as_ref().subrows(0, nr);
         for t in 0..nb_models {
-            let (ec, mut uc) = (eb.rb().col(t), ub.rb_mut().col_mut(t));
+            let (ec, mut uc) = (eb.col(t), ub.rb_mut().col_mut(t));
             let (mut s1, mut s2) = (0.0, 0.0);
             for i in 0..nr {
                 let ui = ec[i] * ec[i];
@@ -158,27 +245,63 @@ pub(crate) fn row_pass(
             sum_u[t] += s1;
             sum_u2[t] += s2;
         }
-        matmul(
-            xtu.as_mut(),
-            Accum::Add,
-            xb.transpose(),
-            ub.rb(),
-            1.0,
-            Par::Seq,
-        );
+        match &products {
+            Products::Dense => matmul(
+                xtu.as_mut(),
+                Accum::Add,
+                xb.transpose(),
+                ub.rb(),
+                1.0,
+                Par::Seq,
+            ),
+            Products::Own(x_cols) => {
+                for (t, core) in cores.iter().enumerate() {
+                    let uc = &u.col_as_slice(t)[..nr];
+                    for &c in &core.kept {
+                        xtu[(c, t)] += dot(&x_cols[c][r0..r0 + nr], uc);
+                    }
+                }
+            }
+        }
         if nw > 0 {
-            let mut wb = w.as_mut().subrows_mut(0, nr);
-            matmul(wb.rb_mut(), Accum::Replace, xb, a.as_ref(), 1.0, Par::Seq);
-            if nl > 0 {
-                let mut lb = lev.as_mut().subrows_mut(0, nr);
-                matmul(
-                    lb.rb_mut(),
-                    Accum::Replace,
-                    xb,
-                    lmat.as_ref(),
-                    1.0,
-                    Par::Seq,
-                );
+            match &products {
+                Products::Dense => {
+                    let mut wb = w.as_mut().subrows_mut(0, nr);
+                    matmul(wb.rb_mut(), Accum::Replace, xb, a.as_ref(), 1.0, Par::Seq);
+                    if nl > 0 {
+                        let mut lb = lev.as_mut().subrows_mut(0, nr);
+                        matmul(
+                            lb.rb_mut(),
+                            Accum::Replace,
+                            xb,
+                            lmat.as_ref(),
+                            1.0,
+                            Par::Seq,
+                        );
+                    }
+                }
+                Products::Own(x_cols) => {
+                    for (col, &(t, _)) in w_cols.iter().enumerate() {
+                        let kept = &cores[t].kept;
+                        combine(&mut w.col_as_slice_mut(col)[..nr], kept, x_cols, r0, |c| {
+                            a[(c, col)]
+                        });
+                    }
+                    for (t, core) in cores.iter().enumerate().filter(|_| nl > 0) {
+                        for c in 0..core.k() {
+                            // Column c of R⁻¹ is zero below row c: only the first c + 1 kept
+                            // columns contribute.
+                            let lc = lev_start[t] + c;
+                            combine(
+                                &mut lev.col_as_slice_mut(lc)[..nr],
+                                &core.kept[..=c],
+                                x_cols,
+                                r0,
+                                |u| lmat[(u, lc)],
+                            );
+                        }
+                    }
+                }
             }
             let mut last_model = usize::MAX;
             for (col, &(t, _)) in w_cols.iter().enumerate() {
@@ -299,6 +422,47 @@ fn hc_pairs(
             }
         }
     }
+}
+
+/// `dst += a·x`.
+fn axpy(dst: &mut [f64], a: f64, x: &[f64]) {
+    for (d, v) in dst.iter_mut().zip(x) {
+        *d += a * v;
+    }
+}
+
+/// `dst = Σ_c weight(c)·x_cols[c][r0..]` over `columns` (one block of rows).
+fn combine(
+    dst: &mut [f64],
+    columns: &[usize],
+    x_cols: &[&[f64]],
+    r0: usize,
+    weight: impl Fn(usize) -> f64,
+) {
+    dst.fill(0.0);
+    let nr = dst.len();
+    for &c in columns {
+        axpy(dst, weight(c), &x_cols[c][r0..r0 + nr]);
+    }
+}
+
+/// Dot product in four interleaved partial sums, which the compiler keeps in vector registers
+/// (a single running sum is one long chain of dependent additions).
+fn dot(a: &[f64], b: &[f64]) -> f64 {
+    let mut acc = [0.0f64; 4];
+    let (a4, b4) = (a.chunks_exact(4), b.chunks_exact(4));
+    let tail: f64 = a4
+        .remainder()
+        .iter()
+        .zip(b4.remainder())
+        .map(|(x, y)| x * y)
+        .sum();
+    for (x, y) in a4.zip(b4) {
+        for j in 0..4 {
+            acc[j] += x[j] * y[j];
+        }
+    }
+    (acc[0] + acc[1]) + (acc[2] + acc[3]) + tail
 }
 
 /// Position of each reported coefficient among the meats' w columns, in reporting order.

@@ -12,7 +12,7 @@ use crate::model_core::{core_from_factor, CoreFit, FactorParts, ModelTss};
 use crate::moments::{CovarianceRoute, MomentStats, MomentStore, MomentWork, Prepared};
 use crate::plan::Plan;
 use crate::refine::{needs_refinement, refine};
-use crate::row_pass::row_pass;
+use crate::row_pass::{row_pass, RowProducts};
 use crate::small_qr::{factor_in_order, QrWork};
 use crate::student::TQuantiles;
 use crate::validate::{check_design, check_model, check_options};
@@ -52,6 +52,8 @@ pub struct SharedFactor<'a> {
     expected_models: Option<usize>,
     /// Moments built on first use by the moment route, shared by later calls.
     moments: MomentStore,
+    /// Which products the pass over rows uses.
+    row_products: RowProducts,
 }
 
 /// Per-thread buffers for the per-model small factorisations.
@@ -129,6 +131,7 @@ impl<'a> SharedFactor<'a> {
             route: CovarianceRoute::Auto,
             expected_models: None,
             moments: MomentStore::default(),
+            row_products: RowProducts::Auto,
         })
     }
 
@@ -168,6 +171,12 @@ impl<'a> SharedFactor<'a> {
     /// [`CovarianceRoute::Auto`]). The numbers agree between routes to about 1e-8 relative.
     pub fn set_covariance_route(&mut self, route: CovarianceRoute) {
         self.route = route;
+    }
+
+    /// Chooses how the pass over rows forms its products (default [`RowProducts::Auto`]): the
+    /// numbers agree between the two to rounding.
+    pub fn set_row_products(&mut self, products: RowProducts) {
+        self.row_products = products;
     }
 
     /// Announces how many models will be fitted on this factor over all calls, so that the
@@ -283,6 +292,7 @@ impl<'a> SharedFactor<'a> {
             &rest,
             plan,
             self.rows,
+            self.row_products,
         )
         .into_iter();
         let mut tq = TQuantiles::new(opts.confidence_level);
