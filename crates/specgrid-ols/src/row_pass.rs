@@ -92,10 +92,119 @@ impl<'a> Products<'a> {
 
 /// Runs the pass for `cores` (all on the same design) and returns one [`Meats`] per core,
 /// forming the products as `preference` says ([`RowProducts`]).
-/// `x_colsum` are the union column sums (for the Breusch–Pagan centring). With `rows` (an
-/// absorbed or weighted design) each row's leverage gains the absorbed part and, under
-/// frequency weights, leverage and HC terms are per represented observation (divided by f).
+///
+/// The loops over own columns are compiled three times, for AVX-512, AVX2 and the baseline
+/// x86-64 vector unit, and the widest one the processor has runs. Each loop does the same
+/// operations in the same order in every version (the sums keep their fixed partial sums, and
+/// there is no fused multiply-add), so the numbers are the same double on every processor.
+#[allow(clippy::too_many_arguments)]
 pub(crate) fn row_pass(
+    x: MatRef<'_, f64>,
+    y: MatRef<'_, f64>,
+    x_colsum: &[f64],
+    cores: &[&CoreFit],
+    plan: &Plan,
+    rows: Option<&RowAdjust>,
+    preference: RowProducts,
+) -> Vec<Meats> {
+    row_pass_on(
+        VectorUnit::detected(),
+        x,
+        y,
+        x_colsum,
+        cores,
+        plan,
+        rows,
+        preference,
+    )
+}
+
+/// The vector units [`row_pass`] is compiled for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum VectorUnit {
+    /// The baseline of the build target (SSE2 on x86-64).
+    Baseline,
+    /// AVX2 (x86-64).
+    Avx2,
+    /// AVX-512F (x86-64).
+    Avx512,
+}
+
+impl VectorUnit {
+    /// The widest unit this processor has.
+    pub(crate) fn detected() -> VectorUnit {
+        #[cfg(target_arch = "x86_64")]
+        {
+            if std::arch::is_x86_feature_detected!("avx512f") {
+                return VectorUnit::Avx512;
+            }
+            if std::arch::is_x86_feature_detected!("avx2") {
+                return VectorUnit::Avx2;
+            }
+        }
+        VectorUnit::Baseline
+    }
+}
+
+/// [`row_pass`] in the version for `unit`; the baseline version where the processor lacks it.
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn row_pass_on(
+    unit: VectorUnit,
+    x: MatRef<'_, f64>,
+    y: MatRef<'_, f64>,
+    x_colsum: &[f64],
+    cores: &[&CoreFit],
+    plan: &Plan,
+    rows: Option<&RowAdjust>,
+    preference: RowProducts,
+) -> Vec<Meats> {
+    #[cfg(target_arch = "x86_64")]
+    {
+        if unit == VectorUnit::Avx512 && std::arch::is_x86_feature_detected!("avx512f") {
+            // SAFETY: the processor has AVX-512F (checked just above).
+            return unsafe { row_pass_avx512(x, y, x_colsum, cores, plan, rows, preference) };
+        }
+        if unit == VectorUnit::Avx2 && std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: the processor has AVX2 (checked just above).
+            return unsafe { row_pass_avx2(x, y, x_colsum, cores, plan, rows, preference) };
+        }
+    }
+    row_pass_body(x, y, x_colsum, cores, plan, rows, preference)
+}
+
+/// [`row_pass`] compiled for AVX-512F.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx512f")]
+fn row_pass_avx512(
+    x: MatRef<'_, f64>,
+    y: MatRef<'_, f64>,
+    x_colsum: &[f64],
+    cores: &[&CoreFit],
+    plan: &Plan,
+    rows: Option<&RowAdjust>,
+    preference: RowProducts,
+) -> Vec<Meats> {
+    row_pass_body(x, y, x_colsum, cores, plan, rows, preference)
+}
+
+/// [`row_pass`] compiled for AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+fn row_pass_avx2(
+    x: MatRef<'_, f64>,
+    y: MatRef<'_, f64>,
+    x_colsum: &[f64],
+    cores: &[&CoreFit],
+    plan: &Plan,
+    rows: Option<&RowAdjust>,
+    preference: RowProducts,
+) -> Vec<Meats> {
+    row_pass_body(x, y, x_colsum, cores, plan, rows, preference)
+}
+
+/// The pass itself, inlined into each of [`row_pass`]'s versions.
+#[inline(always)]
+fn row_pass_body(
     x: MatRef<'_, f64>,
     y: MatRef<'_, f64>,
     x_colsum: &[f64],
@@ -390,6 +499,7 @@ pub(crate) fn row_pass(
 /// Σᵢ (wₐᵢeᵢ)(w_bᵢeᵢ) and the same over (1 − hᵢ) and (1 − hᵢ)² (`lev` present only when HC2/HC3
 /// are requested); each term times `inv_freq` (frequency weights: f copies of (w e/f)²).
 /// `acc` starts at the model's t × t block (upper triangle used). Cost O(rows·t²).
+#[inline(always)]
 fn hc_pairs(
     w: MatRef<'_, f64>,
     e: faer::ColRef<'_, f64>,
@@ -425,6 +535,7 @@ fn hc_pairs(
 }
 
 /// `dst += a·x`.
+#[inline(always)]
 fn axpy(dst: &mut [f64], a: f64, x: &[f64]) {
     for (d, v) in dst.iter_mut().zip(x) {
         *d += a * v;
@@ -432,6 +543,7 @@ fn axpy(dst: &mut [f64], a: f64, x: &[f64]) {
 }
 
 /// `dst = Σ_c weight(c)·x_cols[c][r0..]` over `columns` (one block of rows).
+#[inline(always)]
 fn combine(
     dst: &mut [f64],
     columns: &[usize],
@@ -448,6 +560,7 @@ fn combine(
 
 /// Dot product in four interleaved partial sums, which the compiler keeps in vector registers
 /// (a single running sum is one long chain of dependent additions).
+#[inline(always)]
 fn dot(a: &[f64], b: &[f64]) -> f64 {
     let mut acc = [0.0f64; 4];
     let (a4, b4) = (a.chunks_exact(4), b.chunks_exact(4));

@@ -413,3 +413,91 @@ fn batch_bounds(models: &[ModelSpec], plan: &Plan) -> Vec<(usize, usize)> {
     }
     out
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::api::{ClusterIds, Covariance};
+    use crate::row_pass::{row_pass_on, VectorUnit};
+
+    /// Deterministic values in [−1, 1) (a multiplicative hash; no generator needed).
+    fn wobble(i: usize, j: usize) -> f64 {
+        let h =
+            (i as u64 * 2_654_435_761 + j as u64 * 40_503 + 7).wrapping_mul(0x9E37_79B9_7F4A_7C15);
+        (h >> 11) as f64 / (1u64 << 52) as f64 - 1.0
+    }
+
+    #[test]
+    fn every_vector_unit_gives_the_same_bits() {
+        // 1,031 rows: two full blocks of rows and a short one whose length is not a multiple of
+        // the dot products' four partial sums; every covariance choice, so the leverage
+        // factors, influence columns and cluster sums all run.
+        let (n, p) = (1_031, 9);
+        let x = Mat::from_fn(n, p, |i, j| {
+            if j == 0 {
+                1.0
+            } else {
+                3.0 * j as f64 + wobble(i, j)
+            }
+        });
+        let y = Mat::from_fn(n, 1, |i, _| {
+            x[(i, 1)] - 0.5 * x[(i, 2)] + wobble(i, 99) * (1.0 + x[(i, 3)].abs())
+        });
+        let design = Design {
+            x,
+            y,
+            x_names: (0..p).map(|j| format!("x{j}")).collect(),
+            y_names: vec!["harvest".into()],
+            clusters: vec![ClusterIds {
+                name: "village".into(),
+                codes: (0..n).map(|i| ((i * 7) % 31) as u32).collect(),
+                count: 31,
+            }],
+        };
+        let opts = FitOptions {
+            covariances: vec![
+                Covariance::Hc1,
+                Covariance::Hc3,
+                Covariance::Cluster { dim: 0 },
+            ],
+            ..FitOptions::default()
+        };
+        let factor = SharedFactor::new(&design).unwrap();
+        let models: Vec<ModelSpec> = (2..p)
+            .map(|k| ModelSpec {
+                columns: (0..k).collect(),
+                outcome: 0,
+                tracked: vec![1],
+            })
+            .collect();
+        let mut work = CoreWork::default();
+        let cores: Vec<CoreFit> = models
+            .iter()
+            .map(|m| factor.core(m, &opts, &mut work).unwrap())
+            .collect();
+        let cores: Vec<&CoreFit> = cores.iter().collect();
+        let plan = Plan::new(&design, &opts);
+        let run = |unit| {
+            let meats = row_pass_on(
+                unit,
+                design.x.as_ref(),
+                design.y.as_ref(),
+                &factor.x_colsum,
+                &cores,
+                &plan,
+                None,
+                RowProducts::OwnColumns,
+            );
+            // Debug prints each double's shortest round-trip form: equal text, equal bits.
+            format!("{meats:?}")
+        };
+        let baseline = run(VectorUnit::Baseline);
+        assert!(
+            baseline.contains("hc2") && !baseline.contains("NaN"),
+            "{baseline}"
+        );
+        for unit in [VectorUnit::Avx2, VectorUnit::Avx512] {
+            assert_eq!(run(unit), baseline, "{unit:?}");
+        }
+    }
+}
