@@ -7,7 +7,7 @@
 //! depend on how many threads run batches.
 
 use faer::linalg::matmul::matmul;
-use faer::reborrow::{Reborrow, ReborrowMut};
+use faer::reborrow::ReborrowMut;
 use faer::{Accum, Mat, MatRef, Par};
 
 use crate::absorb::RowAdjust;
@@ -340,26 +340,20 @@ fn row_pass_body(
                 }
             }
         }
-        let mut ub = u.as_mut().subrows_mut(0, nr);
-        let eb = e.as_ref().subrows(0, nr);
         for t in 0..nb_models {
-            let (ec, mut uc) = (eb.col(t), ub.rb_mut().col_mut(t));
-            let (mut s1, mut s2) = (0.0, 0.0);
-            for i in 0..nr {
-                let ui = ec[i] * ec[i];
-                uc[i] = ui;
-                s1 += ui;
-                s2 += ui * ui;
+            let uc = &mut u.col_as_slice_mut(t)[..nr];
+            for (ui, ei) in uc.iter_mut().zip(&e.col_as_slice(t)[..nr]) {
+                *ui = ei * ei;
             }
-            sum_u[t] += s1;
-            sum_u2[t] += s2;
+            sum_u[t] += sum4(nr, |i| uc[i]);
+            sum_u2[t] += sum4(nr, |i| uc[i] * uc[i]);
         }
         match &products {
             Products::Dense => matmul(
                 xtu.as_mut(),
                 Accum::Add,
                 xb.transpose(),
-                ub.rb(),
+                u.as_ref().subrows(0, nr),
                 1.0,
                 Par::Seq,
             ),
@@ -434,8 +428,8 @@ fn row_pass_body(
                 }
                 if t != last_model && need_hc {
                     hc_pairs(
-                        w.as_ref().subrows(0, nr),
-                        e.col(t).subrows(0, nr),
+                        &w,
+                        &e.col_as_slice(t)[..nr],
                         if nl > 0 { Some(&h[..nr]) } else { None },
                         inv_freq.map(|f| &f[r0..r0 + nr]),
                         &rep_w[t],
@@ -501,34 +495,37 @@ fn row_pass_body(
 /// `acc` starts at the model's t × t block (upper triangle used). Cost O(rows·t²).
 #[inline(always)]
 fn hc_pairs(
-    w: MatRef<'_, f64>,
-    e: faer::ColRef<'_, f64>,
+    w: &Mat<f64>,
+    e: &[f64],
     lev: Option<&[f64]>,
     inv_freq: Option<&[f64]>,
     rep_w: &[usize],
     acc: &mut [[f64; 3]],
 ) {
     let nt = rep_w.len();
-    let nr = w.nrows();
+    let nr = e.len();
     for a in 0..nt {
-        let wa = w.col(rep_w[a]);
+        let wa = &w.col_as_slice(rep_w[a])[..nr];
         for b in a..nt {
-            let wb = w.col(rep_w[b]);
+            let wb = &w.col_as_slice(rep_w[b])[..nr];
+            // Same products as the diagonal's (w·e)², so the diagonal is unchanged.
+            let prod = |i: usize| {
+                let p = (wa[i] * e[i]) * (wb[i] * e[i]);
+                inv_freq.map_or(p, |f| p * f[i])
+            };
             let cell = &mut acc[a * nt + b];
-            for i in 0..nr {
-                // Same products as the diagonal's (w·e)², so the diagonal is unchanged.
-                let mut prod = (wa[i] * e[i]) * (wb[i] * e[i]);
-                if let Some(f) = inv_freq {
-                    prod *= f[i];
-                }
-                cell[0] += prod;
-                if let Some(h) = lev {
-                    let gap = 1.0 - h[i];
-                    if gap > UNIT_LEVERAGE_GAP {
-                        cell[1] += prod / gap;
-                        cell[2] += prod / (gap * gap);
-                    }
-                }
+            cell[0] += sum4(nr, prod);
+            if let Some(h) = lev {
+                // Rows at unit leverage are left out (their HC2/HC3 are refused in `finish`).
+                let gap = |i: usize| 1.0 - h[i];
+                cell[1] += sum4(nr, |i| match gap(i) {
+                    g if g > UNIT_LEVERAGE_GAP => prod(i) / g,
+                    _ => 0.0,
+                });
+                cell[2] += sum4(nr, |i| match gap(i) {
+                    g if g > UNIT_LEVERAGE_GAP => prod(i) / (g * g),
+                    _ => 0.0,
+                });
             }
         }
     }
@@ -558,24 +555,27 @@ fn combine(
     }
 }
 
-/// Dot product in four interleaved partial sums, which the compiler keeps in vector registers
-/// (a single running sum is one long chain of dependent additions).
+/// Σᵢ term(i) for i < n in four interleaved partial sums, which the compiler keeps in vector
+/// registers (a single running sum is one long chain of dependent additions), added in a
+/// fixed order: the same double in every version of the pass.
 #[inline(always)]
-fn dot(a: &[f64], b: &[f64]) -> f64 {
+fn sum4(n: usize, term: impl Fn(usize) -> f64) -> f64 {
+    let full = n - n % 4;
     let mut acc = [0.0f64; 4];
-    let (a4, b4) = (a.chunks_exact(4), b.chunks_exact(4));
-    let tail: f64 = a4
-        .remainder()
-        .iter()
-        .zip(b4.remainder())
-        .map(|(x, y)| x * y)
-        .sum();
-    for (x, y) in a4.zip(b4) {
-        for j in 0..4 {
-            acc[j] += x[j] * y[j];
+    for i in (0..full).step_by(4) {
+        for (j, a) in acc.iter_mut().enumerate() {
+            *a += term(i + j);
         }
     }
+    let tail: f64 = (full..n).map(term).sum();
     (acc[0] + acc[1]) + (acc[2] + acc[3]) + tail
+}
+
+/// Dot product ([`sum4`] of the products).
+#[inline(always)]
+fn dot(a: &[f64], b: &[f64]) -> f64 {
+    let n = a.len().min(b.len());
+    sum4(n, |i| a[i] * b[i])
 }
 
 /// Position of each reported coefficient among the meats' w columns, in reporting order.
