@@ -1,32 +1,46 @@
 //! Refusing up front a grid whose results would not fit in memory, with the estimate, before
 //! any model is built or any data is read.
 
-use specgrid_study::{GridCount, Study};
+use specgrid_study::{EffectScale, GridCount, Study};
 
 use crate::exit::Failure;
 
-/// Bytes a planned model takes (id, choices, term lists).
+// The constants below are the results' memory, the process's fixed part (about 90 MB: the
+// binary, thread stacks, polars) left out, measured as peak resident set on the 150-region
+// pick grids of the comparison suite (4 decision dimensions, classical and HC1; session 9,
+// docs/performance.md, "The memory guard recalibrated") and rounded up so that the estimate
+// stays 5–25% above every measurement:
+//
+// | grid | models | --chunk | scale | measured | estimate |
+// |---|---:|---:|---|---:|---:|
+// | mid | 292,600 | — | coefficient | 0.84 GB | 1.03 GB |
+// | mid | 292,600 | — | elasticity | 0.90 GB | 1.10 GB |
+// | mid | 292,600 | 50,000 | coefficient | 0.34 GB | 0.36 GB |
+// | mid | 292,600 | 50,000 | elasticity | 0.56 GB | 0.61 GB |
+// | full | 2,048,200 | — | coefficient | 5.90 GB | 7.21 GB |
+// | full | 2,048,200 | 50,000 | coefficient | 1.44 GB | 1.53 GB |
+// | full | 2,048,200 | 200,000 | coefficient | 1.62–1.76 GB | 2.01 GB |
+// | full | 2,048,200 | 500,000 | coefficient | 2.61 GB | 2.97 GB |
+// | full | 2,048,200 | 200,000 | elasticity | 3.35 GB | 3.75 GB |
+
+/// Bytes a planned model takes (id, choices, term lists, and the run's per-model lists).
 const BYTES_PER_MODEL: u128 = 320;
-/// Bytes per results row in one copy, plus this much per decision dimension. Calibrated on the
-/// demo study: peak memory grew by 157 MiB from 100 to 1,908 models (62 → 219 MiB, 38,160
-/// tracked rows at most), about 4.3 KiB per row once the fits behind the rows are counted; these
-/// constants give 5.1 KiB, erring on the side of refusing.
-const BYTES_PER_ROW: u128 = 1000;
-const BYTES_PER_ROW_PER_DIMENSION: u128 = 40;
-/// Copies of the result rows alive at once: the builder, the polars frame and the writers'
-/// buffers, and the report's input. With `--chunk` a second chunk of fits is alive while the
-/// results writer works on the first; the measured peak of the 2,048,200-model grid did not
-/// move (3.0-3.1 GiB, docs/performance.md), so this count still covers it.
-const ROW_COPIES: u128 = 4;
-/// Bytes the report keeps per model while a chunked run goes on (id, option indices, status,
-/// outcome label), plus this much per covariance choice (its effect). Calibrated on the
-/// 2,048,200-model pick grid with `--chunk 200000` (docs/performance.md): peak 3.5 GiB, which
-/// these constants reproduced with the plan's share and one chunk of rows. Since the report
-/// keeps its models as columns (about 131 bytes a model at two covariance choices, session 8)
-/// the same grid peaks at 1.7–1.8 GiB, so the estimate now errs further on the side of
-/// refusing; recalibrating it, effect scales other than `coefficient` included, is left open.
-const BYTES_PER_REPORT_MODEL: u128 = 300;
-const BYTES_PER_REPORT_EFFECT: u128 = 100;
+/// Bytes per result row held, every copy counted (the fits behind the rows, the results table,
+/// the polars frame and the writers' buffers, and the report's input), plus this much per
+/// decision dimension: 1,330 bytes a row measured at 4 dimensions, without chunks and per
+/// row of a chunk alike.
+const BYTES_PER_ROW: u128 = 1_400;
+const BYTES_PER_ROW_PER_DIMENSION: u128 = 50;
+/// Bytes the report keeps per model while a chunked run goes on (id, option numbers, flags,
+/// outcome label), plus this much per covariance choice (its effect's columns): about 300
+/// measured at two choices.
+const BYTES_PER_REPORT_MODEL: u128 = 250;
+const BYTES_PER_REPORT_EFFECT: u128 = 50;
+/// Bytes more per model when the report puts effects on a converted scale (elasticity,
+/// semi-elasticity, marginal effect): it keeps each model's evaluation values. Measured about
+/// 750 a model in chunked runs and 205 without chunks (where the rows dominate).
+const BYTES_PER_CONVERTED_MODEL_CHUNKED: u128 = 850;
+const BYTES_PER_CONVERTED_MODEL: u128 = 250;
 
 /// The memory estimate of a run.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -59,17 +73,27 @@ pub fn estimate(study: &Study, count: &GridCount, chunk: Option<usize>) -> Estim
         .saturating_mul(study.errors.len().max(1) as u128)
         .saturating_mul(tracked.max(1) as u128);
     let per_row = BYTES_PER_ROW + BYTES_PER_ROW_PER_DIMENSION * count.dimensions.len() as u128;
+    let converted = study.report.scale != EffectScale::Coefficient;
     let (held_rows, report_bytes) = match chunk {
         Some(c) if (c as u128) < models => {
             let per_model = rows / models.max(1);
             let per_entry = BYTES_PER_REPORT_MODEL
-                + BYTES_PER_REPORT_EFFECT * study.errors.len().max(1) as u128;
-            (
-                (c as u128 * per_model).saturating_mul(ROW_COPIES),
-                models.saturating_mul(per_entry),
-            )
+                + BYTES_PER_REPORT_EFFECT * study.errors.len().max(1) as u128
+                + if converted {
+                    BYTES_PER_CONVERTED_MODEL_CHUNKED
+                } else {
+                    0
+                };
+            (c as u128 * per_model, models.saturating_mul(per_entry))
         }
-        _ => (rows.saturating_mul(ROW_COPIES), 0),
+        _ => (
+            rows,
+            if converted {
+                models.saturating_mul(BYTES_PER_CONVERTED_MODEL)
+            } else {
+                0
+            },
+        ),
     };
     let bytes = models
         .saturating_mul(BYTES_PER_MODEL)
