@@ -153,3 +153,41 @@ fn size_text(bytes: u128) -> String {
         format!("{mib:.1} MiB")
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_converted_effect_scale_is_counted_per_model() {
+        // The measured costs of session 9 (docs/performance.md): with an elasticity scale the
+        // report keeps each model's evaluation values, about 750 bytes a model in chunked runs.
+        let path = std::path::Path::new("../../specs/orchards.toml");
+        let text = include_str!("../../../specs/orchards.toml").to_string();
+        let mut study = specgrid_study::parse_study(path, text).expect("the demo study parses");
+        let count = specgrid_study::count_grid(&study).expect("the demo grid counts");
+        let chunk = Some(100);
+        study.report.scale = EffectScale::Coefficient;
+        let plain = (
+            estimate(&study, &count, None),
+            estimate(&study, &count, chunk),
+        );
+        study.report.scale = EffectScale::Elasticity;
+        let converted = (
+            estimate(&study, &count, None),
+            estimate(&study, &count, chunk),
+        );
+        let models = plain.0.models;
+        assert!(models > 100, "{models} models");
+        assert_eq!(
+            converted.0.bytes - plain.0.bytes,
+            models * BYTES_PER_CONVERTED_MODEL
+        );
+        assert_eq!(
+            converted.1.bytes - plain.1.bytes,
+            models * BYTES_PER_CONVERTED_MODEL_CHUNKED
+        );
+        // A chunk holds fewer rows than the whole grid.
+        assert!(plain.1.bytes < plain.0.bytes);
+    }
+}
