@@ -112,7 +112,7 @@ fn independent_core(
             col_sums: &col_sums,
             ones_norm2: n as f64,
         };
-        let mut core = core_from_factor(n, model, &parts, &design.x_names, opts)?;
+        let mut core = core_from_factor(n, model, &parts, &design.x_names, opts, &mut Vec::new())?;
         if needs_refinement(&core) {
             refine(&mut core, design.x.as_ref(), y, opts, &mut Vec::new())?;
         }

@@ -156,12 +156,14 @@ fn spans_ones(norm2: f64, rinv: &[f64], scales: &[f64], sums: &[f64]) -> bool {
 }
 
 /// Builds a [`CoreFit`] from a factor, refusing models that cannot be given trustworthy numbers.
+/// `scratch` is working space kept by the caller across models (the condition estimate's).
 pub(crate) fn core_from_factor(
     n: usize,
     model: &ModelSpec,
     parts: &FactorParts<'_>,
     x_names: &[String],
     opts: &FitOptions,
+    scratch: &mut Vec<f64>,
 ) -> Result<CoreFit, ModelError> {
     let k = parts.kept_pos.len();
     let kept: Vec<usize> = parts.kept_pos.iter().map(|&q| model.columns[q]).collect();
@@ -182,8 +184,8 @@ pub(crate) fn core_from_factor(
     }
     let mut rinv = vec![0.0; k * k];
     upper_inverse(parts.r, k, &mut rinv);
-    let mut tmp = vec![0.0; condition_scratch(k)];
-    let condition = condition_estimate(parts.r, &rinv, k, &mut tmp);
+    scratch.resize(scratch.len().max(condition_scratch(k)), 0.0);
+    let condition = condition_estimate(parts.r, &rinv, k, scratch);
     if condition.is_nan() || condition > opts.condition_limit {
         return Err(ModelError::IllConditioned {
             condition,
@@ -201,14 +203,10 @@ pub(crate) fn core_from_factor(
             b * parts.y_scale / scales[q]
         })
         .collect();
-    let constant: Vec<bool> = parts
-        .kept_pos
-        .iter()
-        .map(|&q| parts.col_constant[q])
-        .collect();
-    let sums: Vec<f64> = parts.kept_pos.iter().map(|&q| parts.col_sums[q]).collect();
-    let has_constant =
-        constant.iter().any(|&c| c) || spans_ones(parts.ones_norm2, &rinv, &scales, &sums);
+    let has_constant = parts.kept_pos.iter().any(|&q| parts.col_constant[q]) || {
+        let sums: Vec<f64> = parts.kept_pos.iter().map(|&q| parts.col_sums[q]).collect();
+        spans_ones(parts.ones_norm2, &rinv, &scales, &sums)
+    };
     let reported = if model.tracked.is_empty() {
         (0..k).collect()
     } else {

@@ -70,6 +70,8 @@ struct CoreWork {
     qr: QrWork,
     resid: Vec<f64>,
     sums: Vec<f64>,
+    /// The condition estimate's working space.
+    condition: Vec<f64>,
 }
 
 impl<'a> SharedFactor<'a> {
@@ -379,7 +381,7 @@ impl<'a> SharedFactor<'a> {
             col_sums: &w.sums,
             ones_norm2: self.ones_norm2,
         };
-        let mut core = core_from_factor(n, model, &parts, &design.x_names, opts)?;
+        let mut core = core_from_factor(n, model, &parts, &design.x_names, opts, &mut w.condition)?;
         if needs_refinement(&core) {
             let y = design.y.col(model.outcome);
             refine(&mut core, design.x.as_ref(), y, opts, &mut w.resid)?;
