@@ -22,9 +22,7 @@ use faer::Mat;
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, StandardNormal};
-use specgrid_ols::{
-    ClusterIds, Covariance, CovarianceRoute, Design, FitOptions, ModelFit, SharedFactor,
-};
+use specgrid_ols::{ClusterIds, Covariance, CovarianceRoute, Design, FitOptions, SharedFactor};
 
 mod common;
 
@@ -62,23 +60,6 @@ fn design(n: usize, p: usize, g: usize, rng: &mut ChaCha8Rng) -> Design {
             count: g,
         }],
     }
-}
-
-fn worst_se_difference(
-    a: &[Result<ModelFit, specgrid_ols::ModelError>],
-    b: &[Result<ModelFit, specgrid_ols::ModelError>],
-) -> f64 {
-    let mut worst: f64 = 0.0;
-    for (x, y) in a.iter().zip(b) {
-        let (x, y) = (x.as_ref().expect("fit"), y.as_ref().expect("fit"));
-        for (cx, cy) in x.coefficients.iter().zip(&y.coefficients) {
-            for (ix, iy) in cx.inference.iter().zip(&cy.inference) {
-                let (s, t) = (ix.std_error, iy.std_error);
-                worst = worst.max((s - t).abs() / s.abs().max(t.abs()));
-            }
-        }
-    }
-    worst
 }
 
 fn main() {
@@ -126,7 +107,7 @@ fn main() {
         let t2 = Instant::now();
         let by_rows = plain.fit_many(&models[..direct], &opts);
         let marginal_d = t2.elapsed().as_secs_f64() / direct as f64;
-        let worst = worst_se_difference(&by_moments[..direct], &by_rows);
+        let worst = common::worst_se_difference(&by_moments[..direct], &by_rows);
         println!(
             "{n:>9} | {fixed:>10.3} {:>14.4} | {:>14.3} | {:>7.0}x | {:>9}",
             marginal_m * 1e3,

@@ -17,10 +17,8 @@
 
 use std::time::Instant;
 
-use faer::Mat;
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
-use rand_distr::{Distribution, StandardNormal};
 use specgrid_ols::{
     Covariance, CovarianceRoute, Design, FitOptions, ModelError, ModelFit, ModelSpec, RowProducts,
     SharedFactor,
@@ -33,29 +31,6 @@ fn list(name: &str, default: &[usize]) -> Vec<usize> {
         .ok()
         .map(|v| v.split(',').filter_map(|s| s.trim().parse().ok()).collect())
         .unwrap_or_else(|| default.to_vec())
-}
-
-fn design(n: usize, p: usize, rng: &mut ChaCha8Rng) -> Design {
-    let mut normal = || -> f64 { StandardNormal.sample(rng) };
-    let common: Vec<f64> = (0..n).map(|_| normal()).collect();
-    let x = Mat::from_fn(n, p, |i, j| {
-        if j == 0 {
-            1.0
-        } else {
-            0.5 * common[i] + normal()
-        }
-    });
-    let y = Mat::from_fn(n, 1, |i, _| {
-        let signal: f64 = (1..p.min(6)).map(|j| x[(i, j)]).sum();
-        signal + (1.0 + x[(i, 1)].abs()) * normal()
-    });
-    Design {
-        x,
-        y,
-        x_names: (0..p).map(|j| format!("x{j}")).collect(),
-        y_names: vec!["harvest".into()],
-        clusters: Vec::new(),
-    }
 }
 
 type Fits = Vec<Result<ModelFit, ModelError>>;
@@ -73,21 +48,6 @@ fn timed(
     let start = Instant::now();
     let fits = factor.fit_many(models, opts);
     (start.elapsed().as_secs_f64(), fits)
-}
-
-/// Largest relative difference of the standard errors between two sets of fits.
-fn worst_se_difference(a: &Fits, b: &Fits) -> f64 {
-    let mut worst: f64 = 0.0;
-    for (x, y) in a.iter().zip(b) {
-        let (x, y) = (x.as_ref().expect("fit"), y.as_ref().expect("fit"));
-        for (cx, cy) in x.coefficients.iter().zip(&y.coefficients) {
-            for (ix, iy) in cx.inference.iter().zip(&cy.inference) {
-                let (s, t) = (ix.std_error, iy.std_error);
-                worst = worst.max((s - t).abs() / s.abs().max(t.abs()));
-            }
-        }
-    }
-    worst
 }
 
 /// Multiply-adds per row of the two ways for models of k columns out of p, one influence
@@ -117,7 +77,7 @@ fn main() {
     );
     let mut rng = ChaCha8Rng::seed_from_u64(20261202);
     for &n in &ns {
-        let design = design(n, p, &mut rng);
+        let design = common::plain_design(n, p, &mut rng);
         for &k in ks.iter().filter(|&&k| k <= p && k < n) {
             for (label, covariances) in &choices {
                 let leverage = matches!(covariances[0], Covariance::Hc3);
@@ -136,7 +96,7 @@ fn main() {
                     let (to, fo) = timed(&design, RowProducts::OwnColumns, &models, &opts);
                     dense = dense.min(td);
                     own = own.min(to);
-                    diff = diff.max(worst_se_difference(&fd, &fo));
+                    diff = diff.max(common::worst_se_difference(&fd, &fo));
                 }
                 assert!(diff < 1e-8, "the two ways disagree: {diff:.1e}");
                 println!(

@@ -12,12 +12,10 @@
 
 use std::time::Instant;
 
-use faer::Mat;
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
-use rand_distr::{Distribution, StandardNormal};
 use rayon::prelude::*;
-use specgrid_ols::{fit_independent, Covariance, Design, FitOptions, SharedFactor};
+use specgrid_ols::{fit_independent, Covariance, FitOptions, SharedFactor};
 
 mod common;
 
@@ -28,36 +26,13 @@ fn env(name: &str, default: usize) -> usize {
         .unwrap_or(default)
 }
 
-fn design(n: usize, p: usize, rng: &mut ChaCha8Rng) -> Design {
-    let mut normal = || -> f64 { StandardNormal.sample(rng) };
-    let common: Vec<f64> = (0..n).map(|_| normal()).collect();
-    let x = Mat::from_fn(n, p, |i, j| {
-        if j == 0 {
-            1.0
-        } else {
-            0.4 * common[i] + normal() * (1.0 + j as f64 / 10.0)
-        }
-    });
-    let y = Mat::from_fn(n, 1, |i, _| {
-        let signal: f64 = (1..p.min(8)).map(|j| x[(i, j)] / j as f64).sum();
-        1.0 + signal + (1.0 + x[(i, 1)].abs()) * normal()
-    });
-    Design {
-        x,
-        y,
-        x_names: (0..p).map(|j| format!("x{j}")).collect(),
-        y_names: vec!["y".into()],
-        clusters: vec![],
-    }
-}
-
 fn main() {
     let n = env("SPECGRID_BENCH_N", 100_000);
     let p = env("SPECGRID_BENCH_P", 30).max(16);
     let count = env("SPECGRID_BENCH_MODELS", 2_000);
     let baseline = env("SPECGRID_BENCH_BASELINE", 200).min(count).max(1);
     let mut rng = ChaCha8Rng::seed_from_u64(2024);
-    let design = design(n, p, &mut rng);
+    let design = common::plain_design(n, p, &mut rng);
     let models = common::random_models(count, p, 5..=15, &mut rng);
     let opts = FitOptions {
         covariances: vec![Covariance::Hc1],

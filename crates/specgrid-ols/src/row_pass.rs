@@ -90,33 +90,30 @@ impl<'a> Products<'a> {
     }
 }
 
-/// Runs the pass for `cores` (all on the same design) and returns one [`Meats`] per core,
-/// forming the products as `preference` says ([`RowProducts`]).
+/// What one pass over the rows works on: `cores` (all on the design of `x` and `y`), the union
+/// column sums `x_colsum` (for the Breusch–Pagan centring), and with `rows` an absorbed or
+/// weighted design (each row's leverage gains the absorbed part and, under frequency weights,
+/// leverage and HC terms are per represented observation, divided by f).
+#[derive(Clone, Copy)]
+pub(crate) struct PassInput<'a> {
+    pub x: MatRef<'a, f64>,
+    pub y: MatRef<'a, f64>,
+    pub x_colsum: &'a [f64],
+    pub cores: &'a [&'a CoreFit],
+    pub plan: &'a Plan,
+    pub rows: Option<&'a RowAdjust>,
+    /// How the products are formed ([`RowProducts`]).
+    pub preference: RowProducts,
+}
+
+/// Runs the pass and returns one [`Meats`] per core.
 ///
 /// The loops over own columns are compiled three times, for AVX-512, AVX2 and the baseline
 /// x86-64 vector unit, and the widest one the processor has runs. Each loop does the same
 /// operations in the same order in every version (the sums keep their fixed partial sums, and
 /// there is no fused multiply-add), so the numbers are the same double on every processor.
-#[allow(clippy::too_many_arguments)]
-pub(crate) fn row_pass(
-    x: MatRef<'_, f64>,
-    y: MatRef<'_, f64>,
-    x_colsum: &[f64],
-    cores: &[&CoreFit],
-    plan: &Plan,
-    rows: Option<&RowAdjust>,
-    preference: RowProducts,
-) -> Vec<Meats> {
-    row_pass_on(
-        VectorUnit::detected(),
-        x,
-        y,
-        x_colsum,
-        cores,
-        plan,
-        rows,
-        preference,
-    )
+pub(crate) fn row_pass(input: PassInput<'_>) -> Vec<Meats> {
+    row_pass_on(VectorUnit::detected(), input)
 }
 
 /// The vector units [`row_pass`] is compiled for.
@@ -147,72 +144,47 @@ impl VectorUnit {
 }
 
 /// [`row_pass`] in the version for `unit`; the baseline version where the processor lacks it.
-#[allow(clippy::too_many_arguments)]
-pub(crate) fn row_pass_on(
-    unit: VectorUnit,
-    x: MatRef<'_, f64>,
-    y: MatRef<'_, f64>,
-    x_colsum: &[f64],
-    cores: &[&CoreFit],
-    plan: &Plan,
-    rows: Option<&RowAdjust>,
-    preference: RowProducts,
-) -> Vec<Meats> {
+pub(crate) fn row_pass_on(unit: VectorUnit, input: PassInput<'_>) -> Vec<Meats> {
     #[cfg(target_arch = "x86_64")]
     {
         if unit == VectorUnit::Avx512 && std::arch::is_x86_feature_detected!("avx512f") {
             // SAFETY: the processor has AVX-512F (checked just above).
-            return unsafe { row_pass_avx512(x, y, x_colsum, cores, plan, rows, preference) };
+            return unsafe { row_pass_avx512(input) };
         }
         if unit == VectorUnit::Avx2 && std::arch::is_x86_feature_detected!("avx2") {
             // SAFETY: the processor has AVX2 (checked just above).
-            return unsafe { row_pass_avx2(x, y, x_colsum, cores, plan, rows, preference) };
+            return unsafe { row_pass_avx2(input) };
         }
     }
-    row_pass_body(x, y, x_colsum, cores, plan, rows, preference)
+    row_pass_body(input)
 }
 
 /// [`row_pass`] compiled for AVX-512F.
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx512f")]
-fn row_pass_avx512(
-    x: MatRef<'_, f64>,
-    y: MatRef<'_, f64>,
-    x_colsum: &[f64],
-    cores: &[&CoreFit],
-    plan: &Plan,
-    rows: Option<&RowAdjust>,
-    preference: RowProducts,
-) -> Vec<Meats> {
-    row_pass_body(x, y, x_colsum, cores, plan, rows, preference)
+fn row_pass_avx512(input: PassInput<'_>) -> Vec<Meats> {
+    row_pass_body(input)
 }
 
 /// [`row_pass`] compiled for AVX2.
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2")]
-fn row_pass_avx2(
-    x: MatRef<'_, f64>,
-    y: MatRef<'_, f64>,
-    x_colsum: &[f64],
-    cores: &[&CoreFit],
-    plan: &Plan,
-    rows: Option<&RowAdjust>,
-    preference: RowProducts,
-) -> Vec<Meats> {
-    row_pass_body(x, y, x_colsum, cores, plan, rows, preference)
+fn row_pass_avx2(input: PassInput<'_>) -> Vec<Meats> {
+    row_pass_body(input)
 }
 
 /// The pass itself, inlined into each of [`row_pass`]'s versions.
 #[inline(always)]
-fn row_pass_body(
-    x: MatRef<'_, f64>,
-    y: MatRef<'_, f64>,
-    x_colsum: &[f64],
-    cores: &[&CoreFit],
-    plan: &Plan,
-    rows: Option<&RowAdjust>,
-    preference: RowProducts,
-) -> Vec<Meats> {
+fn row_pass_body(input: PassInput<'_>) -> Vec<Meats> {
+    let PassInput {
+        x,
+        y,
+        x_colsum,
+        cores,
+        plan,
+        rows,
+        preference,
+    } = input;
     let fe_lev = if plan.need_leverage() {
         rows.and_then(|r| r.fe_leverage())
     } else {

@@ -12,7 +12,7 @@ use crate::model_core::{core_from_factor, CoreFit, FactorParts, ModelTss};
 use crate::moments::{CovarianceRoute, MomentStats, MomentStore, MomentWork, Prepared};
 use crate::plan::Plan;
 use crate::refine::{needs_refinement, refine};
-use crate::row_pass::{row_pass, RowProducts};
+use crate::row_pass::{row_pass, PassInput, RowProducts};
 use crate::small_qr::{factor_in_order, QrWork};
 use crate::student::TQuantiles;
 use crate::validate::{check_design, check_model, check_options};
@@ -287,15 +287,15 @@ impl<'a> SharedFactor<'a> {
             .filter(|(_, m)| m.is_none())
             .filter_map(|(c, _)| c.as_ref().ok())
             .collect();
-        let mut passed = row_pass(
-            self.design.x.as_ref(),
-            self.design.y.as_ref(),
-            &self.x_colsum,
-            &rest,
+        let mut passed = row_pass(PassInput {
+            x: self.design.x.as_ref(),
+            y: self.design.y.as_ref(),
+            x_colsum: &self.x_colsum,
+            cores: &rest,
             plan,
-            self.rows,
-            self.row_products,
-        )
+            rows: self.rows,
+            preference: self.row_products,
+        })
         .into_iter();
         let mut tq = TQuantiles::new(opts.confidence_level);
         cores
@@ -420,7 +420,7 @@ fn batch_bounds(models: &[ModelSpec], plan: &Plan) -> Vec<(usize, usize)> {
 mod tests {
     use super::*;
     use crate::api::{ClusterIds, Covariance};
-    use crate::row_pass::{row_pass_on, VectorUnit};
+    use crate::row_pass::{row_pass_on, PassInput, VectorUnit};
 
     /// Deterministic values in [−1, 1) (a multiplicative hash; no generator needed).
     fn wobble(i: usize, j: usize) -> f64 {
@@ -482,13 +482,15 @@ mod tests {
         let run = |unit| {
             let meats = row_pass_on(
                 unit,
-                design.x.as_ref(),
-                design.y.as_ref(),
-                &factor.x_colsum,
-                &cores,
-                &plan,
-                None,
-                RowProducts::OwnColumns,
+                PassInput {
+                    x: design.x.as_ref(),
+                    y: design.y.as_ref(),
+                    x_colsum: &factor.x_colsum,
+                    cores: &cores,
+                    plan: &plan,
+                    rows: None,
+                    preference: RowProducts::OwnColumns,
+                },
             );
             // Debug prints each double's shortest round-trip form: equal text, equal bits.
             format!("{meats:?}")
