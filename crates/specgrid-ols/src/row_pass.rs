@@ -21,9 +21,10 @@ const ROW_BLOCK: usize = 512;
 /// How much more a multiply-add costs in the loops over a model's own columns than in faer's
 /// matrix products over all union columns (which run on the widest vector unit the processor
 /// has). The own columns are used when they need fewer than 1/`OWN_COLUMN_COST` of the dense
-/// products' multiply-adds. `benches/row_products.rs` put the break-even at a ratio of about 5
-/// (4.5–5.5 at 2,000 and 20,000 rows, lower at 150 rows); the 2,048,200-model grid (61 union
-/// columns, about 7 a model) needs a ninth (docs/performance.md, session 9).
+/// products' multiply-adds. `benches/row_products.rs` puts the two even at a ratio of about
+/// 3.6–3.8 and the own columns 14–29% ahead from 6.3 up (2,000 and 20,000 rows); the
+/// 2,048,200-model grid (61 union columns, about 7 a model) needs a ninth (docs/performance.md,
+/// session 9).
 const OWN_COLUMN_COST: usize = 5;
 
 /// Which products the pass over rows uses ([`crate::SharedFactor::set_row_products`]); the
