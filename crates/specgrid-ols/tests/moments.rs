@@ -12,10 +12,12 @@ use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, StandardNormal};
 use specgrid_ols::{
-    absorb, AbsorbOptions, ClusterIds, Covariance, CovarianceRoute, Design, FitOptions, ModelFit,
-    ModelSpec, RowWeights, SharedFactor, WeightKind,
+    ClusterIds, Covariance, CovarianceRoute, Design, FitOptions, ModelFit, ModelSpec, RowWeights,
+    SharedFactor, WeightKind,
 };
-use support::{compare_fits, random_design, random_models};
+use support::{
+    compare_fits, random_design, random_models, with_village_effects, without_intercept,
+};
 
 const REL: f64 = 1e-8;
 
@@ -316,30 +318,10 @@ fn absorbed_check(weights: Option<RowWeights>) {
 /// says whether most models must have been served by moments.
 fn absorbed_check_with(weights: Option<RowWeights>, opts: FitOptions, expect_moments: bool) {
     let base = random_design(51, 3000, 4, 3, 30, 20);
-    let n = base.x.nrows();
-    let effect = ClusterIds {
-        name: "village".into(),
-        codes: (0..n).map(|i| ((i * 11 + i / 7) % 60) as u32).collect(),
-        count: 60,
-    };
-    let prepared = absorb(
-        &base,
-        &[effect],
-        weights.as_ref(),
-        &AbsorbOptions::default(),
-    )
-    .unwrap();
+    let prepared = with_village_effects(&base, weights.as_ref());
     let prepared: &'static _ = Box::leak(Box::new(prepared));
-    let models: Vec<ModelSpec> = random_models(52, &base, 80, 4, 3)
-        .into_iter()
-        .map(|mut m| {
-            // The intercept is absorbed; keep the rest.
-            m.columns.retain(|&c| c != 0);
-            m.tracked.retain(|&c| c != 0);
-            m
-        })
-        .filter(|m| !m.columns.is_empty())
-        .collect();
+    // The intercept is absorbed; keep the rest.
+    let models = without_intercept(random_models(52, &base, 80, 4, 3));
     let make = || SharedFactor::absorbed(prepared).unwrap();
     let (direct, _) = fit_by(make, CovarianceRoute::Direct, &models, &opts);
     let (moment, stats) = fit_by(make, CovarianceRoute::Moments, &models, &opts);

@@ -7,10 +7,13 @@
 mod support;
 
 use specgrid_ols::{
-    absorb, fit_independent, AbsorbOptions, ClusterIds, CovarianceRoute, FitOptions, ModelError,
-    ModelFit, ModelSpec, RowProducts, RowWeights, SharedFactor, WeightKind,
+    fit_independent, CovarianceRoute, FitOptions, ModelError, ModelFit, ModelSpec, RowProducts,
+    RowWeights, SharedFactor, WeightKind,
 };
-use support::{all_covariances, compare_fits, random_design, random_models};
+use support::{
+    all_covariances, compare_fits, random_design, random_models, with_village_effects,
+    without_intercept,
+};
 
 type Fits = Vec<Result<ModelFit, ModelError>>;
 
@@ -79,29 +82,9 @@ fn automatic_choice_matches_both() {
 /// An absorbed design (60 village effects) with `weights`, every covariance choice.
 fn absorbed_agrees(weights: Option<RowWeights>) {
     let base = random_design(75, 2_000, 4, 3, 30, 20);
-    let n = base.x.nrows();
-    let effect = ClusterIds {
-        name: "village".into(),
-        codes: (0..n).map(|i| ((i * 11 + i / 7) % 60) as u32).collect(),
-        count: 60,
-    };
-    let prepared = absorb(
-        &base,
-        &[effect],
-        weights.as_ref(),
-        &AbsorbOptions::default(),
-    )
-    .unwrap();
-    let models: Vec<ModelSpec> = random_models(76, &base, 60, 4, 3)
-        .into_iter()
-        .map(|mut m| {
-            // The intercept is absorbed; keep the rest.
-            m.columns.retain(|&c| c != 0);
-            m.tracked.retain(|&c| c != 0);
-            m
-        })
-        .filter(|m| !m.columns.is_empty())
-        .collect();
+    let prepared = with_village_effects(&base, weights.as_ref());
+    // The intercept is absorbed; keep the rest.
+    let models = without_intercept(random_models(76, &base, 60, 4, 3));
     let opts = all_covariances();
     let make = || SharedFactor::absorbed(&prepared).unwrap();
     let dense = fit_with(make, RowProducts::Dense, &models, &opts);

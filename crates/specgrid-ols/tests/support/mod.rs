@@ -6,7 +6,10 @@ use faer::Mat;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, StandardNormal};
-use specgrid_ols::{ClusterIds, Covariance, Design, FitOptions, ModelFit, ModelSpec};
+use specgrid_ols::{
+    absorb, AbsorbOptions, AbsorbedDesign, ClusterIds, Covariance, Design, FitOptions, ModelFit,
+    ModelSpec, RowWeights,
+};
 
 /// A design with an intercept, `cont` continuous regressors, a `levels`-level factor as
 /// `levels` indicator columns (a full set, so with the intercept one is redundant), two outcomes
@@ -248,4 +251,29 @@ pub fn fixture_covariance(kind: &str, dims: &[usize]) -> Covariance {
         },
         (kind, dims) => panic!("fixture covariance {kind} {dims:?} has no engine counterpart"),
     }
+}
+
+/// `base` with 60 village effects absorbed (codes (11i + i/7) mod 60) and optional `weights`.
+pub fn with_village_effects(base: &Design, weights: Option<&RowWeights>) -> AbsorbedDesign {
+    let n = base.x.nrows();
+    let effect = ClusterIds {
+        name: "village".into(),
+        codes: (0..n).map(|i| ((i * 11 + i / 7) % 60) as u32).collect(),
+        count: 60,
+    };
+    absorb(base, &[effect], weights, &AbsorbOptions::default()).unwrap()
+}
+
+/// `models` without the intercept (column 0), which absorbed effects span; models left with no
+/// column are dropped.
+pub fn without_intercept(models: Vec<ModelSpec>) -> Vec<ModelSpec> {
+    models
+        .into_iter()
+        .map(|mut m| {
+            m.columns.retain(|&c| c != 0);
+            m.tracked.retain(|&c| c != 0);
+            m
+        })
+        .filter(|m| !m.columns.is_empty())
+        .collect()
 }
