@@ -89,6 +89,11 @@ impl<'a> Products<'a> {
             .collect();
         cols.map_or(Products::Dense, Products::Own)
     }
+
+    /// Whether the products are the dense ones.
+    fn is_dense(&self) -> bool {
+        matches!(self, Products::Dense)
+    }
 }
 
 /// What one pass over the rows works on: `cores` (all on the design of `x` and `y`), the union
@@ -198,9 +203,12 @@ fn row_pass_body(input: PassInput<'_>) -> Vec<Meats> {
     if nb_models == 0 {
         return meats;
     }
-    // Scatter the per-model vectors into p-row matrices.
-    let mut neg_b = Mat::<f64>::zeros(p, nb_models);
-    for (t, core) in cores.iter().enumerate() {
+    let nw_per_model: Vec<usize> = meats.iter().map(|m| m.wpos.len()).collect();
+    let products = Products::choose(preference, x, cores, &nw_per_model, plan.need_leverage());
+    // Scatter the per-model vectors into p-row matrices (the coefficients only for the dense
+    // products; the own loops read them from the cores).
+    let mut neg_b = Mat::<f64>::zeros(p, if products.is_dense() { nb_models } else { 0 });
+    for (t, core) in cores.iter().enumerate().filter(|_| products.is_dense()) {
         for (q, &c) in core.kept.iter().enumerate() {
             neg_b[(c, t)] = -core.coef[q];
         }
@@ -246,8 +254,6 @@ fn row_pass_body(input: PassInput<'_>) -> Vec<Meats> {
             }
         }
     }
-    let nw_per_model: Vec<usize> = meats.iter().map(|m| m.wpos.len()).collect();
-    let products = Products::choose(preference, x, cores, &nw_per_model, nl > 0);
     let mut cluster_sums: Vec<Vec<f64>> = plan
         .groupings
         .iter()
