@@ -6,22 +6,11 @@ use specgrid_study::{EffectScale, GridCount, Study};
 use crate::exit::Failure;
 
 // The constants below are the results' memory, the process's fixed part (about 90 MB: the
-// binary, thread stacks, polars) left out, measured as peak resident set on the 150-region
-// pick grids of the comparison suite (4 decision dimensions, classical and HC1; session 9,
-// docs/performance.md, "The memory guard recalibrated") and rounded up so that the estimate
-// stays 5–25% above every measurement:
-//
-// | grid | models | --chunk | scale | measured | estimate |
-// |---|---:|---:|---|---:|---:|
-// | mid | 292,600 | — | coefficient | 0.84 GB | 1.03 GB |
-// | mid | 292,600 | — | elasticity | 0.90 GB | 1.10 GB |
-// | mid | 292,600 | 50,000 | coefficient | 0.34 GB | 0.36 GB |
-// | mid | 292,600 | 50,000 | elasticity | 0.56 GB | 0.61 GB |
-// | full | 2,048,200 | — | coefficient | 5.90 GB | 7.21 GB |
-// | full | 2,048,200 | 50,000 | coefficient | 1.44 GB | 1.53 GB |
-// | full | 2,048,200 | 200,000 | coefficient | 1.62–1.76 GB | 2.01 GB |
-// | full | 2,048,200 | 500,000 | coefficient | 2.61 GB | 2.97 GB |
-// | full | 2,048,200 | 200,000 | elasticity | 3.35 GB | 3.75 GB |
+// binary, thread stacks, polars) left out, measured as peak resident set on the comparison
+// suite's 150-region pick grids (292,600 and 2,048,200 models, with and without --chunk,
+// coefficient and elasticity scales) and rounded up so that the estimate stays 5–25% above
+// every measurement. The nine measurements and the estimates beside them are in
+// docs/performance.md, "The memory guard recalibrated"; remeasure there when a constant moves.
 
 /// Bytes a planned model takes (id, choices, term lists, and the run's per-model lists).
 const BYTES_PER_MODEL: u128 = 320;
